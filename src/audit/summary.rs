@@ -1,0 +1,185 @@
+//! summary.json: counts and rates with Wilson intervals, recomputed from results.jsonl rows
+//! (never from partial averages), so a resumed run summarises exactly like an uninterrupted one.
+
+use std::collections::{BTreeMap, HashSet};
+
+use serde::{Deserialize, Serialize};
+
+use super::checker::Verdict;
+use super::results::{PairRecord, Status};
+use crate::spec::QuestionKind;
+use crate::stats::Rate;
+
+pub const SUMMARY_FORMAT_VERSION: u32 = 1;
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Summary {
+    pub format_version: u32,
+    /// Confidence level of every interval below.
+    pub confidence: f64,
+    pub n_pairs: u64,
+    pub n_judged: u64,
+    pub n_errors: u64,
+    /// Share of judged pairs that failed their expectation.
+    pub failure_rate: Rate,
+    /// Answers on unedited images that equal the ground truth, one per case with a truth.
+    pub original_accuracy: Vec<AccuracyRow>,
+    /// One row per operation × role × question kind × relation.
+    pub groups: Vec<GroupRow>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct AccuracyRow {
+    pub question_kind: QuestionKind,
+    pub accuracy: Rate,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct GroupRow {
+    pub operation: String,
+    pub role: String,
+    pub question_kind: QuestionKind,
+    /// `change` (the answer should move) or `same` (it should hold).
+    pub relation: String,
+    pub n_pairs: u64,
+    pub n_errors: u64,
+    /// Count of each verdict among judged pairs.
+    pub verdicts: BTreeMap<String, u64>,
+    /// `same` pairs: flipped / judged (the flip rate). `change` pairs: not moved_to_expected / judged.
+    pub failure_rate: Rate,
+}
+
+pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
+    let judged: Vec<&PairRecord> = records.iter().filter(|r| r.status == Status::Ok).collect();
+    let n_failed = judged.iter().filter(|r| r.passed == Some(false)).count() as u64;
+
+    let mut accuracy: BTreeMap<QuestionKind, (u64, u64)> = BTreeMap::new();
+    let mut seen_cases = HashSet::new();
+    for r in records {
+        if let Some(correct) = r.before_correct {
+            if seen_cases.insert(r.case.as_str()) {
+                let e = accuracy.entry(r.question_kind).or_default();
+                e.0 += correct as u64;
+                e.1 += 1;
+            }
+        }
+    }
+
+    type Key = (String, String, QuestionKind, String);
+    let mut groups: BTreeMap<Key, Vec<&PairRecord>> = BTreeMap::new();
+    for r in records {
+        let key = (
+            r.operation.clone(),
+            r.role.clone(),
+            r.question_kind,
+            r.relation.clone(),
+        );
+        groups.entry(key).or_default().push(r);
+    }
+    let groups = groups
+        .into_iter()
+        .map(|((operation, role, question_kind, relation), rows)| {
+            let mut verdicts: BTreeMap<String, u64> = BTreeMap::new();
+            let mut n_judged = 0;
+            let mut n_fail = 0;
+            for r in &rows {
+                if let Some(v) = r.verdict {
+                    *verdicts.entry(v.as_str().to_string()).or_default() += 1;
+                    n_judged += 1;
+                    n_fail += !v.passed() as u64;
+                }
+            }
+            let relevant: &[Verdict] = if relation == "same" {
+                &[Verdict::Held, Verdict::Flipped]
+            } else {
+                &[
+                    Verdict::MovedToExpected,
+                    Verdict::MovedElsewhere,
+                    Verdict::DidNotMove,
+                ]
+            };
+            for v in relevant {
+                verdicts.entry(v.as_str().to_string()).or_default();
+            }
+            GroupRow {
+                operation,
+                role,
+                question_kind,
+                relation,
+                n_pairs: rows.len() as u64,
+                n_errors: rows.iter().filter(|r| r.status == Status::Error).count() as u64,
+                verdicts,
+                failure_rate: Rate::new(n_fail, n_judged, confidence),
+            }
+        })
+        .collect();
+
+    Summary {
+        format_version: SUMMARY_FORMAT_VERSION,
+        confidence,
+        n_pairs: records.len() as u64,
+        n_judged: judged.len() as u64,
+        n_errors: (records.len() - judged.len()) as u64,
+        failure_rate: Rate::new(n_failed, judged.len() as u64, confidence),
+        original_accuracy: accuracy
+            .into_iter()
+            .map(|(question_kind, (c, n))| AccuracyRow {
+                question_kind,
+                accuracy: Rate::new(c, n, confidence),
+            })
+            .collect(),
+        groups,
+    }
+}
+
+/// A short human-readable table of the summary.
+pub fn render_text(s: &Summary) -> String {
+    let mut out = String::new();
+    out.push_str(&format!(
+        "{} pairs: {} judged, {} errors. Failure rate {} ({:.0}% Wilson intervals)\n",
+        s.n_pairs,
+        s.n_judged,
+        s.n_errors,
+        s.failure_rate.describe(),
+        100.0 * s.confidence
+    ));
+    for a in &s.original_accuracy {
+        out.push_str(&format!(
+            "original accuracy, {} questions: {}\n",
+            a.question_kind.as_str(),
+            a.accuracy.describe()
+        ));
+    }
+    out.push_str(&format!(
+        "\n{:<10} {:<11} {:<8} {:<7} {:>6}  {}\n",
+        "operation",
+        "role",
+        "question",
+        "expect",
+        "pairs",
+        "failure rate [interval] (failed/judged)"
+    ));
+    for g in &s.groups {
+        let what = if g.relation == "same" {
+            "flipped"
+        } else {
+            "did not reach expected"
+        };
+        out.push_str(&format!(
+            "{:<10} {:<11} {:<8} {:<7} {:>6}  {} {}{}\n",
+            g.operation,
+            g.role,
+            g.question_kind.as_str(),
+            g.relation,
+            g.n_pairs,
+            g.failure_rate.describe(),
+            what,
+            if g.n_errors > 0 {
+                format!(", {} errors", g.n_errors)
+            } else {
+                String::new()
+            }
+        ));
+    }
+    out
+}

@@ -1,0 +1,186 @@
+//! Command-line types and dispatch. clap types stop here: each command becomes a validated
+//! config struct before any stage sees it.
+
+use std::io::IsTerminal;
+use std::path::PathBuf;
+
+use anyhow::{bail, Context};
+use clap::{Args, Parser, Subcommand};
+
+use crate::audit::summary::render_text;
+use crate::audit::{run_audit, RunConfig};
+use crate::model::check::{check_manifest, describe};
+use crate::model::engine::open_session;
+use crate::model::Manifest;
+
+#[derive(Debug, Parser)]
+#[command(
+    name = "twinaudit",
+    version,
+    about = "Audit VQA, counting and colour models with counterfactual image edits"
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Edit every case's image as its spec says, ask the model before and after, and judge each pair.
+    Run(RunArgs),
+    /// Print an ONNX model's inputs and outputs, and check a manifest against them.
+    Inspect(InspectArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct RunArgs {
+    /// Edit spec file, or a folder of them (*.json, searched recursively).
+    #[arg(long)]
+    pub spec: PathBuf,
+    /// Model manifest (JSON) naming the ONNX file and how to feed it.
+    #[arg(long)]
+    pub model: PathBuf,
+    /// Output folder; must not exist or be empty, unless --resume.
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Seed for every random choice of the edits (recorded in run.json).
+    #[arg(long, default_value_t = 0)]
+    pub seed: u64,
+    /// Worker threads, each with its own model session [default: number of cores].
+    #[arg(long)]
+    pub jobs: Option<usize>,
+    /// Also write every edited image under OUT/edits/.
+    #[arg(long)]
+    pub save_edits: bool,
+    /// Continue an interrupted run in OUT: pairs already in results.jsonl are skipped.
+    #[arg(long)]
+    pub resume: bool,
+    /// Confidence level of the summary's Wilson intervals.
+    #[arg(long, default_value_t = 0.95)]
+    pub confidence: f64,
+    /// Print summary.json on stdout instead of the table (no progress bar).
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct InspectArgs {
+    /// The ONNX model file.
+    pub model: PathBuf,
+    /// A manifest to check against the model.
+    #[arg(long)]
+    pub manifest: Option<PathBuf>,
+    /// Print JSON.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Runs a command; returns the process exit code.
+pub fn execute(cli: Cli) -> anyhow::Result<u8> {
+    match cli.command {
+        Command::Run(args) => run(args),
+        Command::Inspect(args) => inspect(args),
+    }
+}
+
+fn run(args: RunArgs) -> anyhow::Result<u8> {
+    if !(args.confidence > 0.0 && args.confidence < 1.0) {
+        bail!(
+            "--confidence must lie strictly between 0 and 1, got {}",
+            args.confidence
+        );
+    }
+    let config = RunConfig {
+        spec_path: args.spec,
+        manifest_path: args.model,
+        out_dir: args.out,
+        seed: args.seed,
+        jobs: args.jobs.unwrap_or_else(|| {
+            std::thread::available_parallelism()
+                .map(|n| n.get())
+                .unwrap_or(1)
+        }),
+        save_edits: args.save_edits,
+        resume: args.resume,
+        confidence: args.confidence,
+        show_progress: !args.json && std::io::stderr().is_terminal(),
+    };
+    let outcome = run_audit(&config).context("audit failed")?;
+    let s = &outcome.summary;
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(s)?);
+    } else {
+        print!("{}", render_text(s));
+        println!(
+            "\nwrote {}/{{run.json, results.jsonl, summary.json}}",
+            outcome.out_dir.display()
+        );
+    }
+    if s.n_errors > 0 {
+        eprintln!(
+            "twinaudit: {} of {} pairs could not be judged; see the \"error\" field of their lines in {}",
+            s.n_errors,
+            s.n_pairs,
+            outcome.out_dir.join("results.jsonl").display()
+        );
+        return Ok(2);
+    }
+    Ok(0)
+}
+
+fn inspect(args: InspectArgs) -> anyhow::Result<u8> {
+    let session = open_session(&args.model, 1)?;
+    let info = describe(&session);
+    let mismatches = match &args.manifest {
+        None => None,
+        Some(path) => {
+            let manifest = Manifest::load(path)?;
+            Some(check_manifest(&session, &manifest))
+        }
+    };
+    if args.json {
+        let value = serde_json::json!({ "model": args.model, "io": info, "manifest_mismatches": mismatches });
+        println!("{}", serde_json::to_string_pretty(&value)?);
+    } else {
+        println!("model {}", args.model.display());
+        for (title, list) in [("inputs", &info.inputs), ("outputs", &info.outputs)] {
+            println!("{title}:");
+            for t in list {
+                let shape = t.shape.as_ref().map(|s| {
+                    let dims: Vec<String> = s
+                        .iter()
+                        .map(|d| if *d < 0 { "?".into() } else { d.to_string() })
+                        .collect();
+                    format!("[{}]", dims.join(", "))
+                });
+                println!(
+                    "  {:<24} {:<8} {}",
+                    t.name,
+                    t.element_type,
+                    shape.unwrap_or_default()
+                );
+            }
+        }
+        if let Some(m) = &mismatches {
+            if m.is_empty() {
+                println!(
+                    "manifest {}: matches the model",
+                    args.manifest.as_ref().expect("checked").display()
+                );
+            } else {
+                println!(
+                    "manifest {}: {} mismatch(es)",
+                    args.manifest.as_ref().expect("checked").display(),
+                    m.len()
+                );
+                for line in m {
+                    println!("  - {line}");
+                }
+            }
+        }
+    }
+    Ok(match mismatches {
+        Some(m) if !m.is_empty() => 2,
+        _ => 0,
+    })
+}
