@@ -30,6 +30,32 @@ pub enum Command {
     Run(RunArgs),
     /// Print an ONNX model's inputs and outputs, and check a manifest against them.
     Inspect(InspectArgs),
+    /// Run the bundled audit (edit-specs/ with the bundled model) and print its summary.
+    Demo(DemoArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct DemoArgs {
+    /// Output folder [default: runs/demo-<UTC time> in the project].
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Print summary.json on stdout instead of the table.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// The bundled audit, relative to the project folder.
+pub const DEMO_SPECS: &str = "edit-specs";
+pub const DEMO_MANIFEST: &str = "models-cpu/tile-counter.manifest.json";
+
+/// The project folder holding the bundled demo: the working directory or an ancestor, else the
+/// source tree this binary was built from.
+fn project_dir() -> PathBuf {
+    let has_demo = |d: &std::path::Path| d.join(DEMO_SPECS).is_dir() && d.join(DEMO_MANIFEST).is_file();
+    std::env::current_dir()
+        .ok()
+        .and_then(|cwd| cwd.ancestors().find(|d| has_demo(d)).map(|d| d.to_path_buf()))
+        .unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")))
 }
 
 #[derive(Debug, Args)]
@@ -80,7 +106,30 @@ pub fn execute(cli: Cli) -> anyhow::Result<u8> {
     match cli.command {
         Command::Run(args) => run(args),
         Command::Inspect(args) => inspect(args),
+        Command::Demo(args) => demo(args),
     }
+}
+
+fn demo(args: DemoArgs) -> anyhow::Result<u8> {
+    let root = project_dir();
+    let stamp = crate::audit::run_info::now_rfc3339().replace([':', '-'], "");
+    let out = args.out.unwrap_or_else(|| root.join("runs").join(format!("demo-{stamp}")));
+    let start = std::time::Instant::now();
+    let code = run(RunArgs {
+        spec: root.join(DEMO_SPECS),
+        model: root.join(DEMO_MANIFEST),
+        out: out.clone(),
+        seed: 0,
+        jobs: None,
+        save_edits: true,
+        resume: false,
+        confidence: 0.95,
+        json: args.json,
+    })?;
+    if !args.json {
+        println!("demo finished in {:.1} s; edited images in {}", start.elapsed().as_secs_f64(), out.join("edits").display());
+    }
+    Ok(code)
 }
 
 fn run(args: RunArgs) -> anyhow::Result<u8> {
