@@ -51,10 +51,15 @@ pub const DEMO_MANIFEST: &str = "models-cpu/tile-counter.manifest.json";
 /// The project folder holding the bundled demo: the working directory or an ancestor, else the
 /// source tree this binary was built from.
 fn project_dir() -> PathBuf {
-    let has_demo = |d: &std::path::Path| d.join(DEMO_SPECS).is_dir() && d.join(DEMO_MANIFEST).is_file();
+    let has_demo =
+        |d: &std::path::Path| d.join(DEMO_SPECS).is_dir() && d.join(DEMO_MANIFEST).is_file();
     std::env::current_dir()
         .ok()
-        .and_then(|cwd| cwd.ancestors().find(|d| has_demo(d)).map(|d| d.to_path_buf()))
+        .and_then(|cwd| {
+            cwd.ancestors()
+                .find(|d| has_demo(d))
+                .map(|d| d.to_path_buf())
+        })
         .unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")))
 }
 
@@ -113,7 +118,9 @@ pub fn execute(cli: Cli) -> anyhow::Result<u8> {
 fn demo(args: DemoArgs) -> anyhow::Result<u8> {
     let root = project_dir();
     let stamp = crate::audit::run_info::now_rfc3339().replace([':', '-'], "");
-    let out = args.out.unwrap_or_else(|| root.join("runs").join(format!("demo-{stamp}")));
+    let out = args
+        .out
+        .unwrap_or_else(|| root.join("runs").join(format!("demo-{stamp}")));
     let start = std::time::Instant::now();
     let code = run(RunArgs {
         spec: root.join(DEMO_SPECS),
@@ -127,7 +134,11 @@ fn demo(args: DemoArgs) -> anyhow::Result<u8> {
         json: args.json,
     })?;
     if !args.json {
-        println!("demo finished in {:.1} s; edited images in {}", start.elapsed().as_secs_f64(), out.join("edits").display());
+        println!(
+            "demo finished in {:.1} s; edited images in {}",
+            start.elapsed().as_secs_f64(),
+            out.join("edits").display()
+        );
     }
     Ok(code)
 }

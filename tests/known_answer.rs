@@ -23,21 +23,37 @@ struct Expected {
 
 fn expected(model: &str) -> BTreeMap<String, Expected> {
     let text = std::fs::read_to_string(known("expected_verdicts.json")).unwrap();
-    let mut all: BTreeMap<String, BTreeMap<String, Expected>> = serde_json::from_str(&text).unwrap();
-    all.remove(model).unwrap_or_else(|| panic!("no expected verdicts for {model}"))
+    let mut all: BTreeMap<String, BTreeMap<String, Expected>> =
+        serde_json::from_str(&text).unwrap();
+    all.remove(model)
+        .unwrap_or_else(|| panic!("no expected verdicts for {model}"))
 }
 
 fn check(model: &str, manifest: &str, spec: &str) {
     let want = expected(model);
     let (_dir, outcome, rows) = audit(&known(spec), &known(manifest));
-    assert_eq!(rows.len(), want.len(), "{model}: every planned pair has exactly one row");
+    assert_eq!(
+        rows.len(),
+        want.len(),
+        "{model}: every planned pair has exactly one row"
+    );
     assert_eq!(outcome.summary.n_errors, 0);
     for row in &rows {
         assert_eq!(row.status, Status::Ok, "{}: {:?}", row.pair_id, row.error);
-        let w = want.get(&row.pair_id).unwrap_or_else(|| panic!("{model}: unexpected pair {}", row.pair_id));
+        let w = want
+            .get(&row.pair_id)
+            .unwrap_or_else(|| panic!("{model}: unexpected pair {}", row.pair_id));
         let ctx = format!("{model} {}", row.pair_id);
-        assert_eq!(row.before.as_ref().unwrap().answer, w.before, "{ctx}: answer before");
-        assert_eq!(row.after.as_ref().unwrap().answer, w.after, "{ctx}: answer after");
+        assert_eq!(
+            row.before.as_ref().unwrap().answer,
+            w.before,
+            "{ctx}: answer before"
+        );
+        assert_eq!(
+            row.after.as_ref().unwrap().answer,
+            w.after,
+            "{ctx}: answer after"
+        );
         assert_eq!(row.expectation, w.expectation, "{ctx}: expectation");
         assert_eq!(row.verdict.unwrap().as_str(), w.verdict, "{ctx}: verdict");
     }
@@ -45,21 +61,42 @@ fn check(model: &str, manifest: &str, spec: &str) {
 
 #[test]
 fn counting_model_erasing_a_counted_tile_lowers_the_count_by_one() {
-    check("count-red", "count_red.manifest.json", "specs/counting.json");
+    check(
+        "count-red",
+        "count_red.manifest.json",
+        "specs/counting.json",
+    );
 }
 
 #[test]
 fn confounded_counting_model_flips_on_exactly_the_distractor_pairs() {
-    check("count-red-confounded", "count_red_confounded.manifest.json", "specs/counting.json");
+    check(
+        "count-red-confounded",
+        "count_red_confounded.manifest.json",
+        "specs/counting.json",
+    );
     let want = expected("count-red-confounded");
-    let flipped: Vec<&String> = want.iter().filter(|(_, e)| e.verdict == "flipped").map(|(k, _)| k).collect();
-    assert!(flipped.iter().all(|k| k.contains("or") || k.contains("distractor")), "{flipped:?}");
+    let flipped: Vec<&String> = want
+        .iter()
+        .filter(|(_, e)| e.verdict == "flipped")
+        .map(|(k, _)| k)
+        .collect();
+    assert!(
+        flipped
+            .iter()
+            .all(|k| k.contains("or") || k.contains("distractor")),
+        "{flipped:?}"
+    );
     assert_eq!(flipped.len(), 10);
 }
 
 #[test]
 fn colour_model_holds_under_distractor_edits_and_reads_the_filled_centre() {
-    check("colour-centre", "colour_centre.manifest.json", "specs/colour.json");
+    check(
+        "colour-centre",
+        "colour_centre.manifest.json",
+        "specs/colour.json",
+    );
 }
 
 #[test]

@@ -27,27 +27,52 @@ fn big_spec(dir: &Path) -> std::path::PathBuf {
         }
     }
     let path = dir.join("big.json");
-    std::fs::write(&path, serde_json::json!({"format_version": 1, "cases": cases}).to_string()).unwrap();
+    std::fs::write(
+        &path,
+        serde_json::json!({"format_version": 1, "cases": cases}).to_string(),
+    )
+    .unwrap();
     path
 }
 
 fn run_args(spec: &Path, out: &Path) -> Vec<String> {
-    ["run", "--spec", spec.to_str().unwrap(), "--model", known("count_red_confounded.manifest.json").to_str().unwrap(),
-     "--out", out.to_str().unwrap(), "--jobs", "2", "--json"]
-        .iter()
-        .map(|s| s.to_string())
-        .collect()
+    [
+        "run",
+        "--spec",
+        spec.to_str().unwrap(),
+        "--model",
+        known("count_red_confounded.manifest.json")
+            .to_str()
+            .unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--jobs",
+        "2",
+        "--json",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect()
 }
 
 fn line_count(path: &Path) -> usize {
-    std::fs::read(path).map(|b| b.iter().filter(|&&c| c == b'\n').count()).unwrap_or(0)
+    std::fs::read(path)
+        .map(|b| b.iter().filter(|&&c| c == b'\n').count())
+        .unwrap_or(0)
 }
 
 fn verdicts(out: &Path) -> BTreeMap<String, String> {
     read_results(&out.join("results.jsonl"))
         .unwrap()
         .into_iter()
-        .map(|r| (r.pair_id, r.verdict.map(|v| v.as_str().to_string()).unwrap_or_default()))
+        .map(|r| {
+            (
+                r.pair_id,
+                r.verdict
+                    .map(|v| v.as_str().to_string())
+                    .unwrap_or_default(),
+            )
+        })
         .collect()
 }
 
@@ -76,15 +101,29 @@ fn killed_and_resumed_run_equals_uninterrupted_run() {
     child.kill().unwrap(); // SIGKILL on Unix
     child.wait().unwrap();
     let written = line_count(&results);
-    assert!(written < n_pairs, "the kill came too late ({written} of {n_pairs} lines); raise N_COPIES");
-    assert!(!killed.join("summary.json").exists(), "a killed run has no summary yet");
+    assert!(
+        written < n_pairs,
+        "the kill came too late ({written} of {n_pairs} lines); raise N_COPIES"
+    );
+    assert!(
+        !killed.join("summary.json").exists(),
+        "a killed run has no summary yet"
+    );
 
     let again = bin().args(run_args(&spec, &killed)).output().unwrap();
-    assert_eq!(again.status.code(), Some(2), "without --resume an existing run folder is refused");
+    assert_eq!(
+        again.status.code(),
+        Some(2),
+        "without --resume an existing run folder is refused"
+    );
     let mut args = run_args(&spec, &killed);
     args.push("--resume".into());
     let resumed = bin().args(&args).output().unwrap();
-    assert!(resumed.status.success(), "{}", String::from_utf8_lossy(&resumed.stderr));
+    assert!(
+        resumed.status.success(),
+        "{}",
+        String::from_utf8_lossy(&resumed.stderr)
+    );
 
     let rows = read_results(&results).unwrap();
     let ids: HashSet<&str> = rows.iter().map(|r| r.pair_id.as_str()).collect();
@@ -96,7 +135,8 @@ fn killed_and_resumed_run_equals_uninterrupted_run() {
         serde_json::from_str(&std::fs::read_to_string(d.join("summary.json")).unwrap()).unwrap()
     };
     assert_eq!(summary(&killed), summary(&full));
-    let info: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(killed.join("run.json")).unwrap()).unwrap();
+    let info: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(killed.join("run.json")).unwrap()).unwrap();
     assert_eq!(info["n_resumes"], 1);
     assert!(info["finished_at"].is_string());
 }
@@ -105,7 +145,10 @@ fn killed_and_resumed_run_equals_uninterrupted_run() {
 fn a_partial_last_line_is_cut_before_resuming() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("run");
-    let ok = bin().args(run_args(&known("specs/counting.json"), &out)).output().unwrap();
+    let ok = bin()
+        .args(run_args(&known("specs/counting.json"), &out))
+        .output()
+        .unwrap();
     assert!(ok.status.success());
     let path = out.join("results.jsonl");
     let text = std::fs::read_to_string(&path).unwrap();
@@ -118,7 +161,11 @@ fn a_partial_last_line_is_cut_before_resuming() {
     let mut args = run_args(&known("specs/counting.json"), &out);
     args.push("--resume".into());
     let resumed = bin().args(&args).output().unwrap();
-    assert!(resumed.status.success(), "{}", String::from_utf8_lossy(&resumed.stderr));
+    assert!(
+        resumed.status.success(),
+        "{}",
+        String::from_utf8_lossy(&resumed.stderr)
+    );
     assert_eq!(read_results(&path).unwrap().len(), 26);
 }
 
@@ -126,16 +173,30 @@ fn a_partial_last_line_is_cut_before_resuming() {
 fn resume_refuses_a_changed_model() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("run");
-    let ok = bin().args(run_args(&known("specs/counting.json"), &out)).output().unwrap();
+    let ok = bin()
+        .args(run_args(&known("specs/counting.json"), &out))
+        .output()
+        .unwrap();
     assert!(ok.status.success());
     let out_s = out.to_str().unwrap();
     let spec = known("specs/counting.json");
     let r = bin()
-        .args(["run", "--spec", spec.to_str().unwrap(), "--model", known("count_red.manifest.json").to_str().unwrap(),
-               "--out", out_s, "--resume"])
+        .args([
+            "run",
+            "--spec",
+            spec.to_str().unwrap(),
+            "--model",
+            known("count_red.manifest.json").to_str().unwrap(),
+            "--out",
+            out_s,
+            "--resume",
+        ])
         .output()
         .unwrap();
     let err = String::from_utf8_lossy(&r.stderr);
     assert_eq!(r.status.code(), Some(2));
-    assert!(err.contains("cannot resume") && err.contains("model file changed"), "{err}");
+    assert!(
+        err.contains("cannot resume") && err.contains("model file changed"),
+        "{err}"
+    );
 }

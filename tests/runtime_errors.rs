@@ -18,8 +18,13 @@ fn inspect_with_dylib(path: &std::path::Path) -> String {
 
 #[test]
 fn missing_library_says_how_to_fix_it() {
-    let err = inspect_with_dylib(std::path::Path::new("/nonexistent/libonnxruntime.so.1.32.0"));
-    assert!(err.contains("$ORT_DYLIB_PATH names no file") && err.contains("tools/setup-runtime.sh"), "{err}");
+    let err = inspect_with_dylib(std::path::Path::new(
+        "/nonexistent/libonnxruntime.so.1.32.0",
+    ));
+    assert!(
+        err.contains("$ORT_DYLIB_PATH names no file") && err.contains("tools/setup-runtime.sh"),
+        "{err}"
+    );
 }
 
 #[test]
@@ -28,7 +33,10 @@ fn a_file_that_is_not_the_library_says_how_to_fix_it() {
     let fake = dir.path().join("libonnxruntime.so.1.32.0");
     std::fs::write(&fake, b"not a shared library").unwrap();
     let err = inspect_with_dylib(&fake);
-    assert!(err.contains(&format!("cannot load ONNX Runtime from {}", fake.display())), "{err}");
+    assert!(
+        err.contains(&format!("cannot load ONNX Runtime from {}", fake.display())),
+        "{err}"
+    );
     assert!(err.contains("tools/setup-runtime.sh"), "{err}");
 }
 
@@ -50,7 +58,13 @@ fn too_old_library_is_refused_with_the_version() {
     .unwrap();
     let lib = dir.path().join("libonnxruntime.so.1.10.0");
     let cc = std::process::Command::new("cc")
-        .args(["-shared", "-fPIC", "-o", lib.to_str().unwrap(), src.to_str().unwrap()])
+        .args([
+            "-shared",
+            "-fPIC",
+            "-o",
+            lib.to_str().unwrap(),
+            src.to_str().unwrap(),
+        ])
         .status();
     if !matches!(cc, Ok(s) if s.success()) {
         eprintln!("skipped: no working C compiler (cc) to build the stand-in library");

@@ -232,6 +232,9 @@ impl Manifest {
             mean: im.mean.unwrap_or([0.0; 3]),
             std,
         };
+        preprocess
+            .validate()
+            .map_err(|e| err(format!("image_input: {e}")))?;
         let question = match &raw.question_input {
             None => None,
             Some(q) => {

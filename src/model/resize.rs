@@ -2,9 +2,10 @@
 //!
 //! Reference: Pillow `src/libImaging/Resample.c` (`ImagingResample`), 8 bits per channel.
 //! Separable convolution, one pass per axis; a pass is skipped when its dimension is
-//! unchanged. Pass order follows Pillow 13 (see [`vertical_first`]). The filter support grows with the downscale factor
-//! (antialiasing), coefficients are normalised in f64, then converted to signed fixed
-//! point with [`PRECISION_BITS`] fractional bits and each pass rounds and clips to 0..=255.
+//! unchanged, and the order follows Pillow 13 (see [`vertical_first`]). The filter support
+//! grows with the downscale factor (antialiasing); coefficients are normalised in f64, then
+//! converted to signed fixed point with [`PRECISION_BITS`] fractional bits, and each pass
+//! rounds and clips to 0..=255.
 //! Checked against Pillow 13.0.0 by `tests/preprocess_parity.rs`.
 
 use image::RgbImage;
@@ -192,10 +193,7 @@ pub fn resize_like_pil(
     filter: ResizeFilter,
 ) -> RgbImage {
     let (in_w, in_h) = image.dimensions();
-    if width == 0 || height == 0 {
-        return RgbImage::new(width, height);
-    }
-    if in_w == 0 || in_h == 0 {
+    if width == 0 || height == 0 || in_w == 0 || in_h == 0 {
         return RgbImage::new(width, height);
     }
     let horizontal =

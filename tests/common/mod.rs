@@ -7,7 +7,9 @@ use twinaudit::audit::results::{read_results, PairRecord};
 use twinaudit::audit::{run_audit, RunConfig, RunOutcome};
 
 pub fn data(rel: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data").join(rel)
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/data")
+        .join(rel)
 }
 
 pub fn known(rel: &str) -> PathBuf {
@@ -32,7 +34,8 @@ pub fn config(spec: &Path, manifest: &Path, out: &Path) -> RunConfig {
 pub fn audit(spec: &Path, manifest: &Path) -> (tempfile::TempDir, RunOutcome, Vec<PairRecord>) {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("run");
-    let outcome = run_audit(&config(spec, manifest, &out)).unwrap_or_else(|e| panic!("audit failed: {e}"));
+    let outcome =
+        run_audit(&config(spec, manifest, &out)).unwrap_or_else(|e| panic!("audit failed: {e}"));
     let rows = read_results(&out.join("results.jsonl")).unwrap();
     (dir, outcome, rows)
 }
