@@ -24,8 +24,19 @@ pub struct Summary {
     pub failure_rate: Rate,
     /// Answers on unedited images that equal the ground truth, one per case with a truth.
     pub original_accuracy: Vec<AccuracyRow>,
+    /// Failure rates per question kind × role, over all operations: distractor rows are flip
+    /// rates (a model reading a distractor flips), target rows say how often the answer failed to
+    /// follow an edit of what the question asks about.
+    pub by_kind_and_role: Vec<KindRoleRow>,
     /// One row per operation × role × question kind × relation.
     pub groups: Vec<GroupRow>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct KindRoleRow {
+    pub question_kind: QuestionKind,
+    pub role: String,
+    pub failure_rate: Rate,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -64,6 +75,21 @@ pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
             }
         }
     }
+
+    let mut kind_role: BTreeMap<(QuestionKind, String), (u64, u64)> = BTreeMap::new();
+    for r in &judged {
+        let e = kind_role.entry((r.question_kind, r.role.clone())).or_default();
+        e.0 += (r.passed == Some(false)) as u64;
+        e.1 += 1;
+    }
+    let by_kind_and_role = kind_role
+        .into_iter()
+        .map(|((question_kind, role), (fail, n))| KindRoleRow {
+            question_kind,
+            role,
+            failure_rate: Rate::new(fail, n, confidence),
+        })
+        .collect();
 
     type Key = (String, String, QuestionKind, String);
     let mut groups: BTreeMap<Key, Vec<&PairRecord>> = BTreeMap::new();
@@ -128,6 +154,7 @@ pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
                 accuracy: Rate::new(c, n, confidence),
             })
             .collect(),
+        by_kind_and_role,
         groups,
     }
 }
@@ -149,6 +176,19 @@ pub fn render_text(s: &Summary) -> String {
             a.question_kind.as_str(),
             a.accuracy.describe()
         ));
+    }
+    if !s.by_kind_and_role.is_empty() {
+        out.push_str("\nby question kind and edited role (distractor rows: the answer must hold)\n");
+        for r in &s.by_kind_and_role {
+            let what = if r.role == "distractor" { "flip rate" } else { "failure rate" };
+            out.push_str(&format!(
+                "  {:<8} {:<11} {:<13} {}\n",
+                r.question_kind.as_str(),
+                r.role,
+                what,
+                r.failure_rate.describe()
+            ));
+        }
     }
     out.push_str(&format!(
         "\n{:<10} {:<11} {:<8} {:<7} {:>6}  {}\n",
