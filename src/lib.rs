@@ -11,3 +11,4 @@ pub mod model;
 pub mod render;
 pub mod spec;
 pub mod stats;
+pub mod synth;

@@ -4,9 +4,12 @@
 //! its parameters and a seed; pixels outside [`Rendered::changed`] are bit-identical to the input.
 //! Adding an operation is one new file plus one line in [`OPERATIONS`].
 
+pub mod colour;
 pub mod cover;
 pub mod erase;
+pub mod exemplar;
 pub mod mask;
+pub mod recolour;
 pub mod telea;
 
 use image::RgbImage;
@@ -48,7 +51,7 @@ pub trait Operation: Sync {
 }
 
 /// The registry of operations.
-pub static OPERATIONS: &[&dyn Operation] = &[&erase::Erase, &cover::Cover];
+pub static OPERATIONS: &[&dyn Operation] = &[&erase::Erase, &cover::Cover, &recolour::Recolour];
 
 pub fn find_operation(name: &str) -> Option<&'static dyn Operation> {
     OPERATIONS.iter().copied().find(|op| op.name() == name)
