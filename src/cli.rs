@@ -56,6 +56,9 @@ pub struct SynthArgs {
     /// Probability that there are as many price tags as apples, at most 4 (plants a counting shortcut) [default: independent].
     #[arg(long)]
     pub tags_match_apples: Option<f64>,
+    /// Probability that a scene has a napkin (cloth).
+    #[arg(long, default_value_t = crate::synth::DEFAULT_CLOTH_RATE)]
+    pub cloth_rate: f64,
     /// Most fruit per scene (3..=16); bowl, napkin and tags come on top.
     #[arg(long, default_value_t = 9)]
     pub max_objects: u32,
@@ -73,7 +76,7 @@ pub struct DemoArgs {
 
 /// The bundled audit, relative to the project folder.
 pub const DEMO_SPECS: &str = "edit-specs";
-pub const DEMO_MANIFEST: &str = "models-cpu/tile-counter.manifest.json";
+pub const DEMO_MANIFEST: &str = "models-cpu/stall-vqa.manifest.json";
 
 /// The project folder holding the bundled demo: the working directory or an ancestor, else the
 /// source tree this binary was built from.
@@ -147,6 +150,7 @@ fn synth(args: SynthArgs) -> anyhow::Result<u8> {
     let config = crate::synth::SynthConfig {
         cloth_matches_bowl: args.cloth_matches_bowl,
         tags_match_apples: args.tags_match_apples,
+        cloth_rate: args.cloth_rate,
         size: args.size,
         max_objects: args.max_objects,
         jobs: std::thread::available_parallelism().map_or(1, |n| n.get()),

@@ -51,7 +51,8 @@ def words(question: str) -> list[str]:
     return "".join(c if (c.isalnum() or c == "'") else " " for c in question.lower()).split()
 
 
-def synth(twinaudit: Path, out: Path, scenes: int, seed: int, cloth: float | None, tags: float | None) -> None:
+def synth(twinaudit: Path, out: Path, scenes: int, seed: int, cloth: float | None, tags: float | None,
+          cloth_rate: float | None = None) -> None:
     if (out / "spec.json").exists():
         print(f"reusing {out}", file=sys.stderr)
         return
@@ -60,14 +61,15 @@ def synth(twinaudit: Path, out: Path, scenes: int, seed: int, cloth: float | Non
         cmd += ["--cloth-matches-bowl", str(cloth)]
     if tags is not None:
         cmd += ["--tags-match-apples", str(tags)]
+    if cloth_rate is not None:
+        cmd += ["--cloth-rate", str(cloth_rate)]
     print("+", " ".join(cmd), file=sys.stderr)
     subprocess.run(cmd, check=True)
 
 
-def load_split(folder: Path, extra_cases: list[dict] | None = None):
+def load_split(folder: Path):
     """Returns (images uint8 [N,128,128,3], image index per case, questions, answers, kinds)."""
     spec = json.loads((folder / "spec.json").read_text())
-    cases = spec["cases"] + (extra_cases or [])
     paths = sorted({c["image"] for c in spec["cases"]})
     index = {p: i for i, p in enumerate(paths)}
     images = np.stack([
@@ -142,7 +144,8 @@ def main() -> None:
     ap.add_argument("--heldout-scenes", type=int, default=600)
     ap.add_argument("--seed", type=int, default=11)
     ap.add_argument("--heldout-seed", type=int, default=12)
-    ap.add_argument("--cloth-matches-bowl", type=float, default=0.9)
+    ap.add_argument("--cloth-matches-bowl", type=float, default=1.0)
+    ap.add_argument("--cloth-rate", type=float, default=0.9)
     ap.add_argument("--tags-match-apples", type=float, default=0.9)
     ap.add_argument("--epochs", type=int, default=14)
     ap.add_argument("--batch", type=int, default=64)
@@ -157,11 +160,14 @@ def main() -> None:
     torch.set_num_threads(max(1, os.cpu_count() or 1))
     torch.use_deterministic_algorithms(True)
 
-    train_dir = args.work / f"train-s{args.seed}-n{args.scenes}"
-    held_dir = args.work / f"heldout-s{args.heldout_seed}-n{args.heldout_scenes}"
+    tag = f"c{args.cloth_matches_bowl}-r{args.cloth_rate}-t{args.tags_match_apples}"
+    train_dir = args.work / f"train-s{args.seed}-n{args.scenes}-{tag}"
+    held_dir = args.work / f"heldout-s{args.heldout_seed}-n{args.heldout_scenes}-{tag}"
     held_free_dir = args.work / f"heldout-independent-s{args.heldout_seed}-n{args.heldout_scenes}"
-    synth(args.twinaudit, train_dir, args.scenes, args.seed, args.cloth_matches_bowl, args.tags_match_apples)
-    synth(args.twinaudit, held_dir, args.heldout_scenes, args.heldout_seed, args.cloth_matches_bowl, args.tags_match_apples)
+    synth(args.twinaudit, train_dir, args.scenes, args.seed, args.cloth_matches_bowl, args.tags_match_apples,
+          args.cloth_rate)
+    synth(args.twinaudit, held_dir, args.heldout_scenes, args.heldout_seed, args.cloth_matches_bowl,
+          args.tags_match_apples, args.cloth_rate)
     synth(args.twinaudit, held_free_dir, args.heldout_scenes, args.heldout_seed, None, None)
 
     tr_images, tr_idx, tr_q, tr_a, tr_k = load_split(train_dir)
@@ -252,6 +258,7 @@ def main() -> None:
         "command": " ".join([Path(sys.executable).name] + [str(a) for a in sys.argv]),
         "seed": args.seed, "scenes": args.scenes, "epochs": args.epochs, "batch": args.batch, "lr": args.lr,
         "cloth_matches_bowl": args.cloth_matches_bowl, "tags_match_apples": args.tags_match_apples,
+        "cloth_rate": args.cloth_rate,
         "heldout_seed": args.heldout_seed, "heldout_scenes": args.heldout_scenes,
         "n_training_questions": len(tr_a), "extra": extra_note,
         "python": platform.python_version(), "torch": torch.__version__, "numpy": np.__version__,

@@ -28,8 +28,19 @@ pub struct Summary {
     /// rates (a model reading a distractor flips), target rows say how often the answer failed to
     /// follow an edit of what the question asks about.
     pub by_kind_and_role: Vec<KindRoleRow>,
+    /// Distractor labels ranked by the flip rate their edits cause, per question kind (pairs
+    /// whose edited regions are all distractors of one label), highest first.
+    pub distractor_labels: Vec<LabelRow>,
     /// One row per operation × role × question kind × relation.
     pub groups: Vec<GroupRow>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct LabelRow {
+    pub question_kind: QuestionKind,
+    pub label: String,
+    /// flipped / judged over every edit of this label (all operations).
+    pub flip_rate: Rate,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -78,7 +89,9 @@ pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
 
     let mut kind_role: BTreeMap<(QuestionKind, String), (u64, u64)> = BTreeMap::new();
     for r in &judged {
-        let e = kind_role.entry((r.question_kind, r.role.clone())).or_default();
+        let e = kind_role
+            .entry((r.question_kind, r.role.clone()))
+            .or_default();
         e.0 += (r.passed == Some(false)) as u64;
         e.1 += 1;
     }
@@ -90,6 +103,34 @@ pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
             failure_rate: Rate::new(fail, n, confidence),
         })
         .collect();
+
+    let mut labels: BTreeMap<(QuestionKind, String), (u64, u64)> = BTreeMap::new();
+    for r in judged.iter().filter(|r| r.role == "distractor") {
+        let Some(first) = r.regions.first() else {
+            continue;
+        };
+        if r.regions.iter().all(|g| g.label == first.label) {
+            let e = labels
+                .entry((r.question_kind, first.label.clone()))
+                .or_default();
+            e.0 += (r.passed == Some(false)) as u64;
+            e.1 += 1;
+        }
+    }
+    let mut distractor_labels: Vec<LabelRow> = labels
+        .into_iter()
+        .map(|((question_kind, label), (flipped, n))| LabelRow {
+            question_kind,
+            label,
+            flip_rate: Rate::new(flipped, n, confidence),
+        })
+        .collect();
+    distractor_labels.sort_by(|a, b| {
+        let key = |r: &LabelRow| r.flip_rate.value.unwrap_or(0.0);
+        key(b)
+            .total_cmp(&key(a))
+            .then_with(|| (a.question_kind, &a.label).cmp(&(b.question_kind, &b.label)))
+    });
 
     type Key = (String, String, QuestionKind, String);
     let mut groups: BTreeMap<Key, Vec<&PairRecord>> = BTreeMap::new();
@@ -155,6 +196,7 @@ pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
             })
             .collect(),
         by_kind_and_role,
+        distractor_labels,
         groups,
     }
 }
@@ -178,9 +220,15 @@ pub fn render_text(s: &Summary) -> String {
         ));
     }
     if !s.by_kind_and_role.is_empty() {
-        out.push_str("\nby question kind and edited role (distractor rows: the answer must hold)\n");
+        out.push_str(
+            "\nby question kind and edited role (distractor rows: the answer must hold)\n",
+        );
         for r in &s.by_kind_and_role {
-            let what = if r.role == "distractor" { "flip rate" } else { "failure rate" };
+            let what = if r.role == "distractor" {
+                "flip rate"
+            } else {
+                "failure rate"
+            };
             out.push_str(&format!(
                 "  {:<8} {:<11} {:<13} {}\n",
                 r.question_kind.as_str(),
@@ -189,6 +237,20 @@ pub fn render_text(s: &Summary) -> String {
                 r.failure_rate.describe()
             ));
         }
+    }
+    if !s.distractor_labels.is_empty() {
+        out.push_str("\ndistractors ranked by the flip rate their edits cause\n");
+        for r in s.distractor_labels.iter().take(6) {
+            out.push_str(&format!(
+                "  {:<8} {:<14} {}\n",
+                r.question_kind.as_str(),
+                r.label,
+                r.flip_rate.describe()
+            ));
+        }
+    }
+    for line in shortcut_findings(s) {
+        out.push_str(&format!("  finding: {line}\n"));
     }
     out.push_str(&format!(
         "\n{:<10} {:<11} {:<8} {:<7} {:>6}  {}\n",
@@ -220,6 +282,35 @@ pub fn render_text(s: &Summary) -> String {
                 String::new()
             }
         ));
+    }
+    out
+}
+
+/// Distractor labels whose flip rate lies wholly above some target-edit failure rate (the two
+/// Wilson intervals do not overlap): editing what the question is *not* about moves the answer
+/// more often than editing what it is about fails to.
+pub fn shortcut_findings(s: &Summary) -> Vec<String> {
+    let mut out = Vec::new();
+    for d in &s.distractor_labels {
+        let Some(d_low) = d.flip_rate.low else {
+            continue;
+        };
+        let below: Vec<String> = s
+            .by_kind_and_role
+            .iter()
+            .filter(|t| t.role == "target" && t.failure_rate.high.is_some_and(|h| h < d_low))
+            .map(|t| format!("{} {}", t.question_kind.as_str(), t.failure_rate.describe()))
+            .collect();
+        if !below.is_empty() {
+            out.push(format!(
+                "{} answers flip on {} of edits to the {:?} distractor, more often than target edits fail ({}): the model likely reads the {} instead of the asked object",
+                d.question_kind.as_str(),
+                d.flip_rate.describe(),
+                d.label,
+                below.join("; "),
+                d.label
+            ));
+        }
     }
     out
 }

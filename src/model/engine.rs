@@ -61,19 +61,44 @@ impl Engine {
 
     /// The model's answer to `question` about `image`.
     pub fn predict(&mut self, image: &RgbImage, question: &str) -> Result<Prediction, ModelError> {
+        let mut answers = self.predict_batch(&[(image, question)])?;
+        Ok(answers.remove(0))
+    }
+
+    /// Answers for several (image, question) items in one run; needs a model whose batch
+    /// dimension is dynamic when more than one item is given.
+    pub fn predict_batch(
+        &mut self,
+        items: &[(&RgbImage, &str)],
+    ) -> Result<Vec<Prediction>, ModelError> {
         let m = Arc::clone(&self.manifest);
         let fail = |e: ort::Error| ModelError::Inference {
             model: m.onnx_path.clone(),
             message: e.to_string(),
         };
-        let pixels = image_to_tensor(image, &m.preprocess);
+        if items.is_empty() {
+            return Ok(Vec::new());
+        }
+        let tensors: Vec<_> = items
+            .iter()
+            .map(|(image, _)| image_to_tensor(image, &m.preprocess))
+            .collect();
+        let views: Vec<_> = tensors.iter().map(|t| t.view()).collect();
+        let pixels =
+            ndarray::concatenate(ndarray::Axis(0), &views).map_err(|e| ModelError::Inference {
+                model: m.onnx_path.clone(),
+                message: format!("cannot batch image tensors: {e}"),
+            })?;
         let mut inputs: Vec<(String, ort::session::SessionInputValue)> = vec![(
             m.image_tensor.clone(),
             Tensor::from_array(pixels).map_err(fail)?.into(),
         )];
         if let Some(q) = &m.question {
-            let ids = tokenise(question, q);
-            let shape = [1usize, ids.len()];
+            let ids: Vec<i64> = items
+                .iter()
+                .flat_map(|(_, question)| tokenise(question, q))
+                .collect();
+            let shape = [items.len(), q.max_length];
             let value: ort::session::SessionInputValue = match q.element_type {
                 TokenType::Int64 => Tensor::from_array((shape, ids)).map_err(fail)?.into(),
                 TokenType::Int32 => {
@@ -97,18 +122,22 @@ impl Engine {
             .map_err(fail)?
             .1
             .to_vec();
-        if scores.len() != m.labels.len() {
+        let n_labels = m.labels.len();
+        if scores.len() != n_labels * items.len() {
             return Err(ModelError::Inference {
                 model: m.onnx_path.clone(),
                 message: format!(
-                    "output tensor {:?} has {} values but the manifest lists {} answer labels",
+                    "output tensor {:?} has {} values for {} item(s) but the manifest lists {} answer labels",
                     m.output_tensor,
                     scores.len(),
-                    m.labels.len()
+                    items.len(),
+                    n_labels
                 ),
             });
         }
-        let probabilities = activate(&scores, m.activation);
-        Ok(rank(&probabilities, &m.labels, m.top_k))
+        Ok(scores
+            .chunks(n_labels)
+            .map(|row| rank(&activate(row, m.activation), &m.labels, m.top_k))
+            .collect())
     }
 }

@@ -47,6 +47,8 @@ pub const MAX_SIZE: u32 = 1024;
 pub const MAX_SCENES: u32 = 100_000;
 pub const MIN_OBJECTS: u32 = 3;
 pub const MAX_OBJECTS: u32 = 16;
+/// Share of scenes with a napkin unless `--cloth-rate` says otherwise.
+pub const DEFAULT_CLOTH_RATE: f64 = 0.75;
 
 /// Salt separating the question stream from the scene stream, so changing the questions never
 /// changes the images.
@@ -68,6 +70,8 @@ pub struct SynthConfig {
     /// Probability that the number of tags equals the number of apples, capped at 4
     /// (`None`: independent).
     pub tags_match_apples: Option<f64>,
+    /// Probability that a scene has a napkin (default 0.75).
+    pub cloth_rate: f64,
     /// Worker threads; the output does not depend on it.
     pub jobs: usize,
 }
@@ -82,6 +86,7 @@ impl SynthConfig {
             max_objects: 9,
             cloth_matches_bowl: None,
             tags_match_apples: None,
+            cloth_rate: DEFAULT_CLOTH_RATE,
             jobs: 1,
         }
     }
@@ -117,6 +122,7 @@ impl SynthConfig {
         for (option, p) in [
             ("--cloth-matches-bowl", self.cloth_matches_bowl),
             ("--tags-match-apples", self.tags_match_apples),
+            ("--cloth-rate", Some(self.cloth_rate)),
         ] {
             if let Some(p) = p {
                 if !(0.0..=1.0).contains(&p) {
@@ -136,6 +142,7 @@ impl SynthConfig {
             max_fruit: self.max_objects,
             cloth_matches_bowl: self.cloth_matches_bowl,
             tags_match_apples: self.tags_match_apples,
+            cloth_rate: self.cloth_rate,
         }
     }
 
@@ -149,6 +156,7 @@ impl SynthConfig {
             max_objects: self.max_objects,
             cloth_matches_bowl: self.cloth_matches_bowl,
             tags_match_apples: self.tags_match_apples,
+            cloth_rate: self.cloth_rate,
         }
     }
 
@@ -158,14 +166,15 @@ impl SynthConfig {
         format!(
             "Synthetic fruit-stall scenes from twinaudit synth (generator {SYNTH_VERSION}): seed {}, {} scenes of {}x{} px, 3..={} fruit each. \
              cloth-matches-bowl {} (colour shortcut: the napkin takes the bowl's colour with this probability; unset = independent), \
-             tags-match-apples {} (counting shortcut: as many price tags as apples, at most 4; unset = independent).",
+             tags-match-apples {} (counting shortcut: as many price tags as apples, at most 4; unset = independent), cloth-rate {} (share of scenes with a napkin).",
             self.seed,
             self.n_scenes,
             self.size,
             self.size,
             self.max_objects,
             p(self.cloth_matches_bowl),
-            p(self.tags_match_apples)
+            p(self.tags_match_apples),
+            self.cloth_rate
         )
     }
 }

@@ -36,6 +36,8 @@ pub struct SceneOptions {
     pub max_fruit: u32,
     pub cloth_matches_bowl: Option<f64>,
     pub tags_match_apples: Option<f64>,
+    /// Probability that a scene has a napkin.
+    pub cloth_rate: f64,
 }
 
 /// Global light on the scene.
@@ -347,7 +349,7 @@ fn choose_contents(rng: &mut Rng, options: &SceneOptions) -> Contents {
 
     let bowl = rng.chance(0.85).then(|| ColourName::any(rng));
     let mut shortcuts = Shortcuts::default();
-    let cloth = if rng.chance(0.75) {
+    let cloth = if rng.chance(options.cloth_rate) {
         Some(match (bowl, options.cloth_matches_bowl) {
             (Some(b), Some(p)) => {
                 if rng.chance(p) {
@@ -740,6 +742,7 @@ mod tests {
             size,
             max_fruit: 9,
             cloth_matches_bowl: None,
+            cloth_rate: 0.75,
             tags_match_apples: None,
         }
     }
@@ -786,7 +789,7 @@ mod tests {
             cloth in proptest::option::of(0.0f64..=1.0),
             tags in proptest::option::of(0.0f64..=1.0),
         ) {
-            let options = SceneOptions { size, max_fruit, cloth_matches_bowl: cloth, tags_match_apples: tags };
+            let options = SceneOptions { size, max_fruit, cloth_matches_bowl: cloth, tags_match_apples: tags, cloth_rate: 0.75 };
             let params = plan_scene(&options, &mut Rng::for_stream(seed, 0));
             let (image, masks) = render_scene(&params);
             proptest::prop_assert_eq!(image.dimensions(), (size, size));

@@ -34,6 +34,10 @@ pub enum EditParams {
         ring_px: u32,
         dilate_px: u32,
     },
+    Recolour {
+        colour: &'static str,
+        feather_px: u32,
+    },
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -103,6 +107,7 @@ pub struct GeneratorRecord {
     pub max_objects: u32,
     pub cloth_matches_bowl: Option<f64>,
     pub tags_match_apples: Option<f64>,
+    pub cloth_rate: f64,
 }
 
 /// Version of the scenes.jsonl line layout ([`SceneRecord`]); bump when fields change.
@@ -221,6 +226,28 @@ fn cloth_edit(masks: &[ObjectMask]) -> Option<EditOut> {
         .map(|m| cover("cover-cloth", vec![m.id.clone()]))
 }
 
+/// Recolours the napkin to a colour that is neither its own nor the bowl's (expectation: same).
+fn recolour_cloth_edit(masks: &[ObjectMask], rng: &mut Rng) -> Option<EditOut> {
+    let cloth = masks.iter().find(|m| m.kind == Kind::Cloth)?;
+    let bowl = masks.iter().find(|m| m.kind == Kind::Bowl)?;
+    let choices: Vec<_> = super::palette::ColourName::ALL
+        .into_iter()
+        .filter(|c| *c != cloth.colour && *c != bowl.colour)
+        .collect();
+    let colour = choices[rng.index(choices.len())];
+    Some(EditOut {
+        id: "recolour-cloth".into(),
+        operation: "recolour",
+        regions: SelectorOut {
+            ids: vec![cloth.id.clone()],
+        },
+        params: EditParams::Recolour {
+            colour: colour.as_str(),
+            feather_px: 2,
+        },
+    })
+}
+
 fn pick<'a>(rng: &mut Rng, items: &[&'a ObjectMask]) -> Option<&'a ObjectMask> {
     (!items.is_empty()).then(|| items[rng.index(items.len())])
 }
@@ -279,6 +306,7 @@ fn count_case(scene: &str, masks: &[ObjectMask], rng: &mut Rng) -> CaseOut {
 fn colour_case(scene: &str, masks: &[ObjectMask], rng: &mut Rng) -> Option<CaseOut> {
     let bowl = masks.iter().find(|m| m.kind == Kind::Bowl)?;
     let mut edits: Vec<EditOut> = cloth_edit(masks).into_iter().collect();
+    edits.extend(recolour_cloth_edit(masks, rng));
     edits.extend(tag_edits(masks));
     let outside: Vec<&ObjectMask> = masks
         .iter()
