@@ -447,6 +447,7 @@ mod tests {
             max_fruit: 9,
             cloth_matches_bowl: None,
             tags_match_apples: None,
+            cloth_rate: crate::synth::DEFAULT_CLOTH_RATE,
         };
         render_scene(&plan_scene(&options, &mut Rng::for_stream(seed, 0))).1
     }
