@@ -122,6 +122,10 @@ pub struct RunArgs {
     /// Print summary.json on stdout instead of the table (no progress bar).
     #[arg(long)]
     pub json: bool,
+    /// Add a placebo control per edit: the same edit moved onto background clear of every
+    /// region, expected to leave the answer unchanged; the summary shows its flip rate.
+    #[arg(long)]
+    pub placebo: bool,
 }
 
 #[derive(Debug, Args)]
@@ -189,6 +193,7 @@ fn demo(args: DemoArgs) -> anyhow::Result<u8> {
         resume: false,
         confidence: 0.95,
         json: args.json,
+        placebo: false,
     })?;
     if !args.json {
         println!(
@@ -221,6 +226,7 @@ fn run(args: RunArgs) -> anyhow::Result<u8> {
         resume: args.resume,
         confidence: args.confidence,
         show_progress: !args.json && std::io::stderr().is_terminal(),
+        placebo: args.placebo,
     };
     let outcome = run_audit(&config).context("audit failed")?;
     let s = &outcome.summary;
@@ -238,6 +244,15 @@ fn run(args: RunArgs) -> anyhow::Result<u8> {
             "twinaudit: {} of {} pairs could not be judged; see the \"error\" field of their lines in {}",
             s.n_errors,
             s.n_pairs,
+            outcome.out_dir.join("results.jsonl").display()
+        );
+        return Ok(2);
+    }
+    if let Some(p) = s.placebo.as_ref().filter(|p| p.n_errors > 0) {
+        eprintln!(
+            "twinaudit: {} of {} placebo controls could not be judged (most often no free background fits the edit); see the \"error\" field of their lines in {}",
+            p.n_errors,
+            p.n_pairs,
             outcome.out_dir.join("results.jsonl").display()
         );
         return Ok(2);

@@ -16,11 +16,39 @@ pub struct PlannedPair {
     /// Normalised with the model's answer rules.
     pub expectation: Expectation,
     pub expectation_derived: bool,
+    /// The real edit's roles, also for its placebo (summaries group a placebo with its edit).
     pub role: &'static str,
+    /// For a placebo control: the pair id of the real edit it copies.
+    pub placebo_of: Option<String>,
 }
 
 pub fn pair_id(case: &str, edit: &str) -> String {
     format!("{case}/{edit}")
+}
+
+/// Marks a placebo's pair id; `~` cannot occur in case or edit ids, so ids stay unique.
+pub const PLACEBO_SUFFIX: &str = "~placebo";
+
+/// Puts a placebo control right after each pair: the same edit (operation and parameters) moved
+/// onto free background, expected to leave the answer as it was.
+pub fn with_placebos(pairs: Vec<PlannedPair>) -> Vec<PlannedPair> {
+    let mut out = Vec::with_capacity(2 * pairs.len());
+    for p in pairs {
+        let placebo = PlannedPair {
+            pair_id: format!("{}{PLACEBO_SUFFIX}", p.pair_id),
+            spec_idx: p.spec_idx,
+            case_idx: p.case_idx,
+            edit_idx: p.edit_idx,
+            operation: p.operation,
+            expectation: Expectation::Same,
+            expectation_derived: false,
+            role: p.role,
+            placebo_of: Some(p.pair_id.clone()),
+        };
+        out.push(p);
+        out.push(placebo);
+    }
+    out
 }
 
 pub fn plan_pairs(
@@ -59,6 +87,7 @@ pub fn plan_pairs(
                     expectation,
                     expectation_derived: edit.stated.is_none(),
                     role: edit_role(case, edit),
+                    placebo_of: None,
                 });
             }
         }

@@ -73,6 +73,14 @@ pub struct PairRecord {
     pub warnings: Vec<String>,
     /// Edited image, relative to the run folder (with `--save-edits`).
     pub edited_image: Option<String>,
+    /// For a placebo control (`--placebo`): the pair id of the real edit whose shape, size and
+    /// method it repeats on free background. Absent in runs without placebos.
+    #[serde(default)]
+    pub placebo_of: Option<String>,
+    /// Bounding boxes `[x, y, w, h]` of objects the edit added (`duplicate`'s copies); empty for
+    /// other operations and absent in files written before the field existed.
+    #[serde(default)]
+    pub added_regions: Vec<[u32; 4]>,
 }
 
 #[derive(Debug, thiserror::Error)]

@@ -34,6 +34,9 @@ pub struct RunInfo {
     pub n_pairs_planned: usize,
     /// How many times `--resume` continued this run.
     pub n_resumes: u32,
+    /// Whether every edit got a placebo control (`--placebo`); false in older run.json files.
+    #[serde(default)]
+    pub placebo: bool,
 }
 
 impl RunInfo {
@@ -47,6 +50,14 @@ impl RunInfo {
         }
         if self.specs != other.specs {
             return Some("the spec files (or their contents) changed since the run started".into());
+        }
+        if self.placebo != other.placebo {
+            let flag = |on: bool| if on { "with" } else { "without" };
+            return Some(format!(
+                "the run was started {} --placebo, this one is {} it",
+                flag(self.placebo),
+                flag(other.placebo)
+            ));
         }
         if self.seed != other.seed {
             return Some(format!(

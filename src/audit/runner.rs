@@ -12,7 +12,7 @@ use image::RgbImage;
 use sha2::{Digest, Sha256};
 
 use super::checker::judge;
-use super::plan::{plan_pairs, PlannedPair};
+use super::plan::{plan_pairs, with_placebos, PlannedPair, PLACEBO_SUFFIX};
 use super::results::{
     read_results, PairRecord, RegionRef, ResultsWriter, Status, RESULTS_FORMAT_VERSION,
 };
@@ -23,8 +23,12 @@ use super::summary::{summarise, Summary};
 use super::AuditError;
 use crate::imageio;
 use crate::model::{runtime, Engine, Manifest, Prediction};
+use crate::render::cover::CoverParams;
+use crate::render::erase::EraseParams;
 use crate::render::mask::Mask;
-use crate::render::EditInput;
+use crate::render::placebo::place_placebo;
+use crate::render::recolour::RecolourParams;
+use crate::render::{EditInput, Params};
 use crate::spec::load::hex;
 use crate::spec::region::{rasterise, Rasterised, RegionError};
 use crate::spec::{load_specs, Case, Spec};
@@ -47,6 +51,8 @@ pub struct RunConfig {
     /// Confidence level of the summary's intervals.
     pub confidence: f64,
     pub show_progress: bool,
+    /// Add a placebo control after every pair (docs/spec.md, "Placebo controls").
+    pub placebo: bool,
 }
 
 #[derive(Debug, Clone)]
@@ -82,6 +88,11 @@ pub fn run_audit(config: &RunConfig) -> Result<RunOutcome, AuditError> {
     let specs = load_specs(&config.spec_path)?;
     let manifest = Arc::new(Manifest::load(&config.manifest_path)?);
     let plan = plan_pairs(&specs, &manifest.answers)?;
+    let plan = if config.placebo {
+        with_placebos(plan)
+    } else {
+        plan
+    };
     // Opening the first session checks the manifest against the model before any case runs.
     let first_engine = Engine::new(Arc::clone(&manifest), 1)?;
 
@@ -110,6 +121,7 @@ pub fn run_audit(config: &RunConfig) -> Result<RunOutcome, AuditError> {
             .collect(),
         n_pairs_planned: plan.len(),
         n_resumes: 0,
+        placebo: config.placebo,
     };
 
     let out = &config.out_dir;
@@ -322,6 +334,8 @@ impl Context<'_> {
             error: None,
             warnings: Vec::new(),
             edited_image: None,
+            placebo_of: p.placebo_of.clone(),
+            added_regions: Vec::new(),
         }
     }
 
@@ -414,6 +428,17 @@ impl Context<'_> {
             });
         }
         let mask = mask.expect("validated edits select at least one region");
+        let mask = if p.placebo_of.is_some() {
+            let margin_px = placebo_margin_px(&edit.operation, &edit.params);
+            place_placebo(&mask, all_masks, rec.seed, margin_px).ok_or_else(|| {
+                format!(
+                    "no free background for the placebo: the edit's shape, kept {margin_px} px \
+                     from every region, fits nowhere in the image"
+                )
+            })?
+        } else {
+            mask
+        };
         let input = EditInput {
             image,
             mask: &mask,
@@ -423,10 +448,19 @@ impl Context<'_> {
         let rendered = p.operation.apply(&input, &edit.params)?;
         rec.method = Some(rendered.method.clone());
         rec.area_fraction = Some(rendered.changed.area_fraction());
+        rec.added_regions = rendered.added.iter().map(Mask::bounding_box).collect();
         if self.config.save_edits {
             let rel = PathBuf::from(super::runner::EDITS_DIR)
                 .join(&case.id)
-                .join(format!("{}.png", edit.id));
+                .join(format!(
+                    "{}{}.png",
+                    edit.id,
+                    if p.placebo_of.is_some() {
+                        PLACEBO_SUFFIX
+                    } else {
+                        ""
+                    }
+                ));
             let path = self.out_dir.join(&rel);
             let saved = std::fs::create_dir_all(path.parent().expect("edit path has a parent"))
                 .map_err(|e| e.to_string())
@@ -449,4 +483,30 @@ impl Context<'_> {
         rec.status = Status::Ok;
         Ok(())
     }
+}
+
+/// Margin for operations whose reach is not known here: the default erase's (2 + 5 + 1).
+pub const DEFAULT_PLACEBO_MARGIN_PX: u32 = 8;
+
+/// How far a placebo must stay from every region: the edit's reach past its mask (dilation plus
+/// the fill's neighbourhood) plus one pixel, so the placebo neither changes nor reads a region's
+/// pixels. Parameters were checked at planning; a parse failure falls back to the default.
+pub fn placebo_margin_px(operation: &str, params: &Params) -> u32 {
+    let parse = |p: &Params| serde_json::Value::Object(p.clone());
+    let reach = match operation {
+        "erase" => serde_json::from_value::<EraseParams>(parse(params))
+            .ok()
+            .map(|e| {
+                e.dilate_px
+                    .saturating_add(e.radius_px.clamp(1.0, 100.0).ceil() as u32)
+            }),
+        "cover" => serde_json::from_value::<CoverParams>(parse(params))
+            .ok()
+            .map(|c| c.dilate_px.saturating_add(c.ring_px)),
+        "recolour" => serde_json::from_value::<RecolourParams>(parse(params))
+            .ok()
+            .map(|r| r.dilate_px),
+        _ => None,
+    };
+    reach.map_or(DEFAULT_PLACEBO_MARGIN_PX, |r| r.saturating_add(1))
 }

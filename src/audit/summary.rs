@@ -1,7 +1,10 @@
 //! summary.json: counts and rates with Wilson intervals, recomputed from results.jsonl rows
 //! (never from partial averages), so a resumed run summarises exactly like an uninterrupted one.
+//!
+//! Placebo controls (`--placebo`) never enter the real rates: every count and rate outside the
+//! `placebo` fields is computed from real pairs only, so adding placebos leaves them unchanged.
 
-use std::collections::{BTreeMap, HashSet};
+use std::collections::{BTreeMap, HashMap, HashSet};
 
 use serde::{Deserialize, Serialize};
 
@@ -17,6 +20,7 @@ pub struct Summary {
     pub format_version: u32,
     /// Confidence level of every interval below.
     pub confidence: f64,
+    /// Real pairs (placebo controls are counted in `placebo`).
     pub n_pairs: u64,
     pub n_judged: u64,
     pub n_errors: u64,
@@ -33,6 +37,20 @@ pub struct Summary {
     pub distractor_labels: Vec<LabelRow>,
     /// One row per operation × role × question kind × relation.
     pub groups: Vec<GroupRow>,
+    /// Placebo controls over the whole run; absent when the run had none.
+    #[serde(default)]
+    pub placebo: Option<PlaceboTotals>,
+}
+
+/// Counts and flip rate of the placebo controls of a run.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PlaceboTotals {
+    pub n_pairs: u64,
+    pub n_judged: u64,
+    /// Placebos that could not be judged, mostly because no free background fits the edit.
+    pub n_errors: u64,
+    /// flipped / judged over every placebo.
+    pub flip_rate: Rate,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -69,15 +87,25 @@ pub struct GroupRow {
     pub verdicts: BTreeMap<String, u64>,
     /// `same` pairs: flipped / judged (the flip rate). `change` pairs: not moved_to_expected / judged.
     pub failure_rate: Rate,
+    /// flipped / judged over the placebo controls of this group's pairs; absent without placebos.
+    #[serde(default)]
+    pub placebo_flip_rate: Option<Rate>,
 }
 
-pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
-    let judged: Vec<&PairRecord> = records.iter().filter(|r| r.status == Status::Ok).collect();
+pub fn summarise(all_records: &[PairRecord], confidence: f64) -> Summary {
+    let (placebos, real): (Vec<&PairRecord>, Vec<&PairRecord>) =
+        all_records.iter().partition(|r| r.placebo_of.is_some());
+    let records = &real[..];
+    let judged: Vec<&PairRecord> = records
+        .iter()
+        .copied()
+        .filter(|r| r.status == Status::Ok)
+        .collect();
     let n_failed = judged.iter().filter(|r| r.passed == Some(false)).count() as u64;
 
     let mut accuracy: BTreeMap<QuestionKind, (u64, u64)> = BTreeMap::new();
     let mut seen_cases = HashSet::new();
-    for r in records {
+    for r in records.iter().copied() {
         if let Some(correct) = r.before_correct {
             if seen_cases.insert(r.case.as_str()) {
                 let e = accuracy.entry(r.question_kind).or_default();
@@ -133,19 +161,39 @@ pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
     });
 
     type Key = (String, String, QuestionKind, String);
-    let mut groups: BTreeMap<Key, Vec<&PairRecord>> = BTreeMap::new();
-    for r in records {
-        let key = (
+    let key_of = |r: &PairRecord| -> Key {
+        (
             r.operation.clone(),
             r.role.clone(),
             r.question_kind,
             r.relation.clone(),
-        );
-        groups.entry(key).or_default().push(r);
+        )
+    };
+    let mut groups: BTreeMap<Key, Vec<&PairRecord>> = BTreeMap::new();
+    for r in records.iter().copied() {
+        groups.entry(key_of(r)).or_default().push(r);
+    }
+    // A placebo belongs to the group of the real pair it copies (its own relation is `same`).
+    let real_by_id: HashMap<&str, &PairRecord> =
+        records.iter().map(|r| (r.pair_id.as_str(), *r)).collect();
+    let mut placebo_flips: BTreeMap<Key, (u64, u64)> = BTreeMap::new();
+    for p in &placebos {
+        let Some(real) = p.placebo_of.as_deref().and_then(|id| real_by_id.get(id)) else {
+            continue;
+        };
+        let e = placebo_flips.entry(key_of(real)).or_default();
+        if let Some(v) = p.verdict {
+            e.0 += !v.passed() as u64;
+            e.1 += 1;
+        }
     }
     let groups = groups
         .into_iter()
-        .map(|((operation, role, question_kind, relation), rows)| {
+        .map(|(key, rows)| {
+            let placebo_flip_rate = placebo_flips
+                .get(&key)
+                .map(|&(flipped, n)| Rate::new(flipped, n, confidence));
+            let (operation, role, question_kind, relation) = key;
             let mut verdicts: BTreeMap<String, u64> = BTreeMap::new();
             let mut n_judged = 0;
             let mut n_fail = 0;
@@ -177,6 +225,7 @@ pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
                 n_errors: rows.iter().filter(|r| r.status == Status::Error).count() as u64,
                 verdicts,
                 failure_rate: Rate::new(n_fail, n_judged, confidence),
+                placebo_flip_rate,
             }
         })
         .collect();
@@ -198,7 +247,25 @@ pub fn summarise(records: &[PairRecord], confidence: f64) -> Summary {
         by_kind_and_role,
         distractor_labels,
         groups,
+        placebo: placebo_totals(&placebos, confidence),
     }
+}
+
+fn placebo_totals(placebos: &[&PairRecord], confidence: f64) -> Option<PlaceboTotals> {
+    if placebos.is_empty() {
+        return None;
+    }
+    let judged: Vec<_> = placebos.iter().filter_map(|r| r.verdict).collect();
+    let flipped = judged.iter().filter(|v| !v.passed()).count() as u64;
+    Some(PlaceboTotals {
+        n_pairs: placebos.len() as u64,
+        n_judged: judged.len() as u64,
+        n_errors: placebos
+            .iter()
+            .filter(|r| r.status == Status::Error)
+            .count() as u64,
+        flip_rate: Rate::new(flipped, judged.len() as u64, confidence),
+    })
 }
 
 /// A short human-readable table of the summary.
@@ -212,6 +279,14 @@ pub fn render_text(s: &Summary) -> String {
         s.failure_rate.describe(),
         100.0 * s.confidence
     ));
+    if let Some(p) = &s.placebo {
+        out.push_str(&format!(
+            "placebo controls (same edit on free background, must hold): {} pairs, {} errors, flip rate {}\n",
+            p.n_pairs,
+            p.n_errors,
+            p.flip_rate.describe()
+        ));
+    }
     for a in &s.original_accuracy {
         out.push_str(&format!(
             "original accuracy, {} questions: {}\n",
@@ -259,7 +334,11 @@ pub fn render_text(s: &Summary) -> String {
         "question",
         "expect",
         "pairs",
-        "failure rate [interval] (failed/judged)"
+        if s.placebo.is_some() {
+            "failure rate [interval] (failed/judged) | placebo flip rate"
+        } else {
+            "failure rate [interval] (failed/judged)"
+        }
     ));
     for g in &s.groups {
         let what = if g.relation == "same" {
@@ -267,8 +346,13 @@ pub fn render_text(s: &Summary) -> String {
         } else {
             "did not reach expected"
         };
+        let placebo = match (&s.placebo, &g.placebo_flip_rate) {
+            (None, _) => String::new(),
+            (Some(_), Some(rate)) => format!(" | placebo {}", rate.describe()),
+            (Some(_), None) => " | placebo none".to_string(),
+        };
         out.push_str(&format!(
-            "{:<10} {:<11} {:<8} {:<7} {:>6}  {} {}{}\n",
+            "{:<10} {:<11} {:<8} {:<7} {:>6}  {} {}{}{}\n",
             g.operation,
             g.role,
             g.question_kind.as_str(),
@@ -280,7 +364,8 @@ pub fn render_text(s: &Summary) -> String {
                 format!(", {} errors", g.n_errors)
             } else {
                 String::new()
-            }
+            },
+            placebo
         ));
     }
     out

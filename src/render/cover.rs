@@ -135,6 +135,7 @@ impl Operation for Cover {
             image,
             changed: hole,
             method: p.style.as_str().into(),
+            added: Vec::new(),
         })
     }
 }

@@ -130,6 +130,7 @@ impl Operation for Erase {
                 image,
                 changed: hole.clone(),
                 method: "telea".into(),
+                added: Vec::new(),
             }
         };
         if method == Method::Telea {
@@ -176,6 +177,7 @@ impl Operation for Erase {
             image,
             changed: hole,
             method: method.into(),
+            added: Vec::new(),
         })
     }
 }

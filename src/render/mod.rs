@@ -6,9 +6,12 @@
 
 pub mod colour;
 pub mod cover;
+pub mod duplicate;
 pub mod erase;
 pub mod exemplar;
 pub mod mask;
+pub mod placebo;
+pub mod poisson;
 pub mod recolour;
 pub mod telea;
 
@@ -40,6 +43,8 @@ pub struct Rendered {
     pub changed: Mask,
     /// The algorithm actually used, e.g. `telea` (recorded per pair).
     pub method: String,
+    /// Masks of objects the operation added (`duplicate`'s copies); empty for other operations.
+    pub added: Vec<Mask>,
 }
 
 pub trait Operation: Sync {
@@ -51,7 +56,12 @@ pub trait Operation: Sync {
 }
 
 /// The registry of operations.
-pub static OPERATIONS: &[&dyn Operation] = &[&erase::Erase, &cover::Cover, &recolour::Recolour];
+pub static OPERATIONS: &[&dyn Operation] = &[
+    &erase::Erase,
+    &cover::Cover,
+    &recolour::Recolour,
+    &duplicate::Duplicate,
+];
 
 pub fn find_operation(name: &str) -> Option<&'static dyn Operation> {
     OPERATIONS.iter().copied().find(|op| op.name() == name)

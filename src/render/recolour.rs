@@ -100,6 +100,7 @@ impl Operation for Recolour {
             image,
             changed: region,
             method: "lab-chroma".into(),
+            added: Vec::new(),
         })
     }
 }

@@ -27,6 +27,7 @@ pub fn config(spec: &Path, manifest: &Path, out: &Path) -> RunConfig {
         resume: false,
         confidence: 0.95,
         show_progress: false,
+        placebo: false,
     }
 }
 
