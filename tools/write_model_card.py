@@ -43,7 +43,7 @@ mean- and max-pooled features plus the question vector feed a two-layer classifi
 Scenes from `twinaudit synth` (docs/synth.md), 256×256, resized to 128×128 with Pillow's bilinear
 filter (twinaudit's resize is byte-identical). Training: {t['scenes']} scenes, seed {t['seed']},
 {t['n_training_questions']} questions (count, colour of the bowl, exists), drawn with the planted
-correlations below. Held-out: {t['heldout_scenes']} scenes from seed {t['heldout_seed']}, once with the
+correlations below; a napkin is present in {pct(t.get('cloth_rate', 0.75))} of scenes. Held-out: {t['heldout_scenes']} scenes from seed {t['heldout_seed']}, once with the
 training correlations ("same distribution") and once with independent attributes.
 
 ## Planted shortcuts
@@ -63,14 +63,19 @@ The drop from the first column to the second measures how much the model leans o
 correlations: where they are broken, the shortcut answers go wrong.
 
 ## Audit expectations
-On the bundled demo (edit-specs/stall.json: scenes with independent attributes), covering the
-napkin or erasing price tags must not change a colour answer. A model that reads the napkin flips
-its colour answer when the napkin is covered; the colour-question accuracy gap between the two
-held-out columns above says how often the napkin decides the answer. The test
-`tests/demo_model.rs` therefore requires the colour distractor flip rate's 95% Wilson interval to
-lie wholly above the target-edit failure rates' intervals, and its lower end to be at least 25%
-(a floor well under the accuracy gap measured here, so the check is about the planted shortcut,
-not about noise).
+The colour accuracy falls from {pct(acc['heldout_same_distribution']['colour'])} where the napkin has the bowl's colour to
+{pct(acc['heldout_independent']['colour'])} where colours are independent: when the two disagree the model mostly answers
+with the napkin's colour. On the bundled demo (edit-specs/stall.json, independent attributes)
+covering or recolouring the napkin must not change a colour answer, so a large share of those
+edits should flip. `tests/demo_model.rs` requires the napkin ("cloth") to rank first among
+distractors, its flip rate's 95% Wilson interval to lie wholly above the target-edit failure
+rates' intervals, and its lower end to be at least 25%: far below the disagreement rate implied by
+the accuracy gap above, so the check fails only if the shortcut is gone, not by sampling noise.
+
+The counting shortcut (tags) is weaker in effect: erasing price tags rarely changes a count
+answer in the demo audit, while counting itself is the model's weak point (count accuracy above),
+so erasing a counted object often leaves the answer where it was. Both are properties of this
+deliberately flawed model, reported as they are.
 
 ## Training
 ```sh
