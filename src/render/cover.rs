@@ -10,6 +10,7 @@ use serde::Deserialize;
 
 use super::mask::Mask;
 use super::recolour::distance_to_outside;
+use super::rng::SplitMix64;
 use super::{parse_params, EditInput, Operation, Params, Rendered};
 use crate::spec::Effect;
 
@@ -376,7 +377,7 @@ pub fn fill_noise(image: &RgbImage, mask: &Mask, params: &NoiseFillParams) -> Rg
 /// Standard normal deviates from SplitMix64 through the Box–Muller transform (both deviates of
 /// each pair are used).
 struct NormalDeviates {
-    state: u64,
+    state: SplitMix64,
     spare: Option<f64>,
 }
 
@@ -384,30 +385,17 @@ impl NormalDeviates {
     fn new(seed: u64) -> NormalDeviates {
         // Decorrelate from other users of the same seed.
         NormalDeviates {
-            state: seed ^ 0xC0DE_C0FE_2B1A_5EED,
+            state: SplitMix64::new(seed ^ 0xC0DE_C0FE_2B1A_5EED),
             spare: None,
         }
-    }
-
-    fn next_u64(&mut self) -> u64 {
-        self.state = self.state.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.state;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-
-    /// Uniform in (0, 1]: 53 random bits, never 0 (the logarithm below needs that).
-    fn uniform_open0(&mut self) -> f64 {
-        ((self.next_u64() >> 11) + 1) as f64 / (1u64 << 53) as f64
     }
 
     fn next(&mut self) -> f64 {
         if let Some(z) = self.spare.take() {
             return z;
         }
-        let u1 = self.uniform_open0();
-        let u2 = self.uniform_open0();
+        let u1 = self.state.uniform_open0();
+        let u2 = self.state.uniform_open0();
         let r = (-2.0 * u1.ln()).sqrt();
         let (s, c) = (2.0 * std::f64::consts::PI * u2).sin_cos();
         self.spare = Some(r * s);

@@ -25,6 +25,7 @@ use serde::Deserialize;
 
 use super::mask::Mask;
 use super::poisson::{poisson_clone, PoissonParams};
+use super::rng::SplitMix64;
 use super::{parse_params, EditInput, Operation, Params, Rendered};
 use crate::spec::Effect;
 
@@ -393,38 +394,6 @@ fn find_place(
         .map(|i| (start + i) % n_positions)
         .map(|k| ((k % nx) as u32, (k / nx) as u32))
         .find(|&(tx, ty)| footprint.fits(forbidden, w, tx, ty))
-}
-
-/// SplitMix64: a tiny, well-mixed generator, so placements depend on nothing but the seed.
-///
-/// # References
-/// G. L. Steele, D. Lea, C. H. Flood, "Fast splittable pseudorandom number generators",
-/// OOPSLA 2014.
-struct SplitMix64(u64);
-
-impl SplitMix64 {
-    fn new(seed: u64) -> Self {
-        SplitMix64(seed)
-    }
-
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-
-    /// Uniform in 0..n (n > 0), by rejection so no value is favoured.
-    fn below(&mut self, n: u64) -> u64 {
-        let zone = u64::MAX - u64::MAX % n;
-        loop {
-            let v = self.next_u64();
-            if v < zone {
-                return v % n;
-            }
-        }
-    }
 }
 
 #[cfg(test)]

@@ -31,6 +31,7 @@ use image::RgbImage;
 
 use super::colour::srgb_to_lab;
 use super::mask::Mask;
+use super::rng::SplitMix64;
 use super::telea::{inpaint_telea, TeleaParams};
 
 /// Parameters of [`inpaint_exemplar`].
@@ -753,26 +754,16 @@ fn spread(colours: impl Iterator<Item = [f32; 3]>) -> f32 {
     (sum_sq / n - mean_sq).max(0.0).sqrt()
 }
 
-/// SplitMix64 (Steele, Lea, Flood, "Fast splittable pseudorandom number generators",
-/// OOPSLA 2014): tiny, fast, and plenty for drawing search candidates.
-struct Rng(u64);
+/// Draws search candidates; usize wrapper over the shared generator.
+struct Rng(SplitMix64);
 
 impl Rng {
     fn new(seed: u64) -> Rng {
-        Rng(seed)
+        Rng(SplitMix64::new(seed))
     }
 
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-
-    /// Uniform in `0..n` (`n > 0`), by the high half of a 64 × 64-bit product.
     fn below(&mut self, n: usize) -> usize {
-        ((u128::from(self.next_u64()) * n as u128) >> 64) as usize
+        self.0.below(n as u64) as usize
     }
 }
 

@@ -13,6 +13,7 @@ pub mod mask;
 pub mod placebo;
 pub mod poisson;
 pub mod recolour;
+pub mod rng;
 pub mod telea;
 
 use image::RgbImage;
