@@ -1,6 +1,6 @@
 //! Quality harness for the exemplar fill: holes punched where the truth is known into invented,
 //! procedurally generated images (made here, with a fixed seed), filled by Telea and by exemplar,
-//! scored by PSNR inside the hole.
+//! scored by PSNR inside the hole (and, printed only, SSIM over the hole's bounding box).
 //!
 //! PSNR (peak signal-to-noise ratio) = 10·log10(255² / MSE), MSE over the hole's pixels and the
 //! three channels. PSNR rewards blur: on pure noise a smooth fill scores higher than a perfect
@@ -8,6 +8,13 @@
 //! get right (periodic or quasi-periodic patterns with mild noise), and the table also shows the
 //! standard deviation of luminance in the hole (truth vs fill) as a measure of how much texture a
 //! fill keeps.
+//!
+//! SSIM (printed, not asserted): Z. Wang, A. C. Bovik, H. R. Sheikh, E. P. Simoncelli, "Image
+//! quality assessment: from error visibility to structural similarity", IEEE TIP 13(4), 2004;
+//! Gaussian window σ = 1.5 (11×11, normalised), K1 = 0.01, K2 = 0.03, L = 255, per RGB channel on
+//! the crop to the hole's bounding box, mean over window centres whose window lies in the box, then
+//! over channels (the definition of examples/quality.rs and docs/quality.md; for the disc hole the
+//! box also holds known pixels).
 //!
 //! Run with `cargo test --release --test exemplar_quality -- --nocapture` to see the table.
 
@@ -169,11 +176,73 @@ fn luma_std_in_hole(image: &RgbImage, hole: &Mask) -> f64 {
     (v.iter().map(|x| (x - mean) * (x - mean)).sum::<f64>() / v.len() as f64).sqrt()
 }
 
+/// Gaussian window weights, σ = 1.5, radius 5, normalised to sum 1.
+fn gaussian_taps() -> [f64; 11] {
+    let taps: [f64; 11] = std::array::from_fn(|k| {
+        let d = k as f64 - 5.0;
+        (-d * d / (2.0 * 1.5 * 1.5)).exp()
+    });
+    let sum: f64 = taps.iter().sum();
+    taps.map(|t| t / sum)
+}
+
+/// Separable "valid" Gaussian filter of a `w`×`h` plane: output is (w−10)×(h−10).
+fn filter_valid(plane: &[f64], w: usize, h: usize, taps: &[f64; 11]) -> Vec<f64> {
+    let (ow, oh) = (w - 10, h - 10);
+    let rows: Vec<f64> = (0..h * ow)
+        .map(|i| {
+            (0..11)
+                .map(|k| taps[k] * plane[(i / ow) * w + i % ow + k])
+                .sum()
+        })
+        .collect();
+    (0..oh * ow)
+        .map(|i| {
+            (0..11)
+                .map(|k| taps[k] * rows[(i / ow + k) * ow + i % ow])
+                .sum()
+        })
+        .collect()
+}
+
+/// Mean SSIM over the hole's bounding box (see the module doc), averaged over RGB channels.
+fn ssim_in_box(truth: &RgbImage, fill: &RgbImage, hole: &Mask) -> f64 {
+    let [x0, y0, w, h] = hole.bounding_box().map(|v| v as usize);
+    let taps = gaussian_taps();
+    let (c1, c2) = ((0.01f64 * 255.0).powi(2), (0.03f64 * 255.0).powi(2));
+    let mut total = 0.0;
+    for c in 0..3 {
+        let plane = |img: &RgbImage| -> Vec<f64> {
+            (0..w * h)
+                .map(|i| f64::from(img.get_pixel((x0 + i % w) as u32, (y0 + i / w) as u32)[c]))
+                .collect()
+        };
+        let (a, b) = (plane(truth), plane(fill));
+        let prod = |p: &[f64], q: &[f64]| p.iter().zip(q).map(|(u, v)| u * v).collect::<Vec<_>>();
+        let (mu_a, mu_b) = (filter_valid(&a, w, h, &taps), filter_valid(&b, w, h, &taps));
+        let aa = filter_valid(&prod(&a, &a), w, h, &taps);
+        let bb = filter_valid(&prod(&b, &b), w, h, &taps);
+        let ab = filter_valid(&prod(&a, &b), w, h, &taps);
+        let sum: f64 = (0..mu_a.len())
+            .map(|i| {
+                let (ma, mb) = (mu_a[i], mu_b[i]);
+                let (va, vb, cov) = (aa[i] - ma * ma, bb[i] - mb * mb, ab[i] - ma * mb);
+                ((2.0 * ma * mb + c1) * (2.0 * cov + c2))
+                    / ((ma * ma + mb * mb + c1) * (va + vb + c2))
+            })
+            .sum();
+        total += sum / mu_a.len() as f64;
+    }
+    total / 3.0
+}
+
 struct Row {
     name: &'static str,
     textured: bool,
     psnr_telea: f64,
     psnr_exemplar: f64,
+    ssim_telea: f64,
+    ssim_exemplar: f64,
     std_truth: f64,
     std_telea: f64,
     std_exemplar: f64,
@@ -184,6 +253,7 @@ struct Row {
 fn score(name: &'static str, textured: bool, truth: &RgbImage) -> Row {
     let holes = holes();
     let (mut pt, mut pe, mut st, mut sf, mut se) = (0.0, 0.0, 0.0, 0.0, 0.0);
+    let (mut qt, mut qe) = (0.0, 0.0);
     for (k, hole) in holes.iter().enumerate() {
         let telea = inpaint_telea(truth, hole, &TeleaParams { radius_px: 5.0 });
         let params = ExemplarParams {
@@ -194,6 +264,8 @@ fn score(name: &'static str, textured: bool, truth: &RgbImage) -> Row {
         // Capped at 60 dB so one exact fill does not make the mean infinite.
         pt += psnr_in_hole(truth, &telea, hole).min(60.0);
         pe += psnr_in_hole(truth, &exemplar, hole).min(60.0);
+        qt += ssim_in_box(truth, &telea, hole);
+        qe += ssim_in_box(truth, &exemplar, hole);
         st += luma_std_in_hole(truth, hole);
         sf += luma_std_in_hole(&telea, hole);
         se += luma_std_in_hole(&exemplar, hole);
@@ -206,6 +278,8 @@ fn score(name: &'static str, textured: bool, truth: &RgbImage) -> Row {
         textured,
         psnr_telea: pt / n,
         psnr_exemplar: pe / n,
+        ssim_telea: qt / n,
+        ssim_exemplar: qe / n,
         std_truth: st / n,
         std_telea: sf / n,
         std_exemplar: se / n,
@@ -223,19 +297,29 @@ fn exemplar_beats_telea_on_textured_images() {
         score("smooth gradient", false, &smooth()),
     ];
     println!("Invented test images, {SIZE}×{SIZE}, 3 holes each (28 px square, r=14 disc, 20 px square);");
-    println!("PSNR in the hole (dB, capped at 60), luminance std in the hole (truth / fill), and");
+    println!("PSNR in the hole (dB, capped at 60), SSIM over the hole's box (telea / exemplar),");
+    println!("luminance std in the hole (truth / fill), and");
     println!("erase's ring texture statistic (auto picks exemplar above {TEXTURE_STD_THRESHOLD}):");
     println!(
-        "{:<18} {:>8} {:>11} {:>11} {:>11} {:>13} {:>8}",
-        "image", "textured", "PSNR telea", "PSNR exempl", "std truth", "std tel/exe", "ring"
+        "{:<18} {:>8} {:>11} {:>11} {:>13} {:>11} {:>13} {:>8}",
+        "image",
+        "textured",
+        "PSNR telea",
+        "PSNR exempl",
+        "SSIM tel/exe",
+        "std truth",
+        "std tel/exe",
+        "ring"
     );
     for r in &rows {
         println!(
-            "{:<18} {:>8} {:>11.2} {:>11.2} {:>11.1} {:>6.1}/{:<6.1} {:>8.1}",
+            "{:<18} {:>8} {:>11.2} {:>11.2} {:>6.3}/{:<6.3} {:>11.1} {:>6.1}/{:<6.1} {:>8.1}",
             r.name,
             r.textured,
             r.psnr_telea,
             r.psnr_exemplar,
+            r.ssim_telea,
+            r.ssim_exemplar,
             r.std_truth,
             r.std_telea,
             r.std_exemplar,
