@@ -3,29 +3,14 @@
 //! the input's size, the same seed gives the same output, added copies lie inside `changed`, and
 //! nothing panics (no free space is an `Err` with a message).
 
-use image::{Rgb, RgbImage};
+mod common;
+
+use image::RgbImage;
 use proptest::prelude::*;
 use twinaudit::render::duplicate::Duplicate;
 use twinaudit::render::mask::Mask;
 use twinaudit::render::poisson::{poisson_clone, poisson_clone_with_stats, PoissonParams};
 use twinaudit::render::{EditInput, Operation, Params};
-
-/// Invented image: noise from `pixels`, or a periodic pattern.
-fn image_of(w: u32, h: u32, pixels: &[u8], periodic: bool) -> RgbImage {
-    RgbImage::from_fn(w, h, |x, y| {
-        if periodic {
-            let v = if (x + 2 * y) % 5 < 2 { 40 } else { 210 };
-            Rgb([v, 255 - v, v / 2])
-        } else {
-            let i = ((y * w + x) * 3) as usize % pixels.len();
-            Rgb([
-                pixels[i],
-                pixels[(i + 1) % pixels.len()],
-                pixels[(i + 2) % pixels.len()],
-            ])
-        }
-    })
-}
 
 /// A rectangle clipped to the image (may touch the borders); `None` when empty.
 fn rect_mask(w: u32, h: u32, rect: [u32; 4]) -> Option<Mask> {
@@ -65,7 +50,7 @@ fn case() -> impl Strategy<Value = (RgbImage, Vec<Mask>, Params)> {
                     "blend": if paste { "paste" } else { "poisson" },
                 }))
                 .unwrap();
-                Some((image_of(w, h, &px, periodic), regions, params))
+                Some((common::image_of(w, h, &px, periodic), regions, params))
             },
         )
 }
@@ -135,8 +120,8 @@ proptest! {
             .map(|(i, &r)| r || scatter[i % scatter.len()])
             .collect();
         let mask = Mask::from_vec(w, h, inside).unwrap();
-        let dest = image_of(w, h, &px, false);
-        let src = image_of(h, w, &px[1..].iter().chain(&px[..1]).copied().collect::<Vec<_>>(), true);
+        let dest = common::image_of(w, h, &px, false);
+        let src = common::image_of(h, w, &px[1..].iter().chain(&px[..1]).copied().collect::<Vec<_>>(), true);
         let params = PoissonParams { mixed_gradients: mixed, ..PoissonParams::default() };
         let (out, stats) = poisson_clone_with_stats(&dest, &src, offset, &mask, &params);
         prop_assert_eq!(stats.n_unknowns, mask.n_inside());

@@ -3,29 +3,14 @@
 //! and nothing panics, whatever the image size (down to 1×1), hole shape (touching borders,
 //! covering most of the image) or parameters.
 
+mod common;
+
 use image::{Rgb, RgbImage};
 use proptest::prelude::*;
 use twinaudit::render::erase::Erase;
 use twinaudit::render::exemplar::{inpaint_exemplar, inpaint_exemplar_avoiding, ExemplarParams};
 use twinaudit::render::mask::Mask;
 use twinaudit::render::{EditInput, Operation, Params};
-
-/// An image of the given size: noise, or a periodic pattern (so source patches match well).
-fn image_of(w: u32, h: u32, pixels: &[u8], periodic: bool) -> RgbImage {
-    RgbImage::from_fn(w, h, |x, y| {
-        if periodic {
-            let v = if (x + 2 * y) % 5 < 2 { 40 } else { 210 };
-            Rgb([v, 255 - v, v / 2])
-        } else {
-            let i = ((y * w + x) * 3) as usize % pixels.len();
-            Rgb([
-                pixels[i],
-                pixels[(i + 1) % pixels.len()],
-                pixels[(i + 2) % pixels.len()],
-            ])
-        }
-    })
-}
 
 /// A mask of the given size: a rectangle (may touch or cover the borders) plus scattered pixels.
 fn mask_of(w: u32, h: u32, rect: [u32; 4], scatter: &[bool]) -> Option<Mask> {
@@ -53,7 +38,7 @@ fn case() -> impl Strategy<Value = (RgbImage, Mask)> {
             "mask needs a pixel",
             |(w, h, px, periodic, rect, scatter)| {
                 let mask = mask_of(w, h, rect, &scatter)?;
-                Some((image_of(w, h, &px, periodic), mask))
+                Some((common::image_of(w, h, &px, periodic), mask))
             },
         )
 }
@@ -188,7 +173,7 @@ fn hole_larger_than_the_known_area_falls_back_for_what_no_patch_reaches() {
 
 #[test]
 fn seeds_change_the_search_not_the_invariants() {
-    let img = image_of(40, 40, &[0, 1, 2], true);
+    let img = common::image_of(40, 40, &[0, 1, 2], true);
     let inside = (0..1600)
         .map(|i| (12..30).contains(&(i % 40)) && (12..30).contains(&(i / 40)))
         .collect();

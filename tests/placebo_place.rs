@@ -19,24 +19,6 @@ fn rect(w: u32, h: u32, [x, y, bw, bh]: [u32; 4]) -> Option<Mask> {
     Mask::from_vec(w, h, inside)
 }
 
-/// The mask moved by (dx, dy), if every pixel stays inside the image.
-fn shifted(mask: &Mask, dx: i64, dy: i64) -> Option<Mask> {
-    let (w, h) = (mask.width() as i64, mask.height() as i64);
-    let mut inside = vec![false; (w * h) as usize];
-    for y in 0..h {
-        for x in 0..w {
-            if mask.contains(x as u32, y as u32) {
-                let (nx, ny) = (x + dx, y + dy);
-                if nx < 0 || ny < 0 || nx >= w || ny >= h {
-                    return None;
-                }
-                inside[(ny * w + nx) as usize] = true;
-            }
-        }
-    }
-    Mask::from_vec(w as u32, h as u32, inside)
-}
-
 fn clear_of(moved: &Mask, regions: &[Mask], margin_px: u32) -> bool {
     let grown = moved.dilate(margin_px);
     regions.iter().all(|r| {
@@ -53,7 +35,7 @@ fn offset_between(mask: &Mask, moved: &Mask) -> Option<(i64, i64)> {
     let [ax, ay, _, _] = mask.bounding_box();
     let [bx, by, _, _] = moved.bounding_box();
     let (dx, dy) = (bx as i64 - ax as i64, by as i64 - ay as i64);
-    (shifted(mask, dx, dy).as_ref() == Some(moved)).then_some((dx, dy))
+    (mask.translate(dx, dy).as_ref() == Some(moved)).then_some((dx, dy))
 }
 
 /// An image size, a few box regions, and a mask: a box with some pixels knocked out (any shape).
@@ -105,7 +87,7 @@ proptest! {
                 let (w, h) = (mask.width() as i64, mask.height() as i64);
                 for dy in -h..h {
                     for dx in -w..w {
-                        if let Some(m) = shifted(&mask, dx, dy) {
+                        if let Some(m) = &mask.translate(dx, dy) {
                             prop_assert!(!clear_of(&m, &regions, margin), "free offset ({dx}, {dy}) missed");
                         }
                     }

@@ -9,7 +9,6 @@ use image::{Rgb, RgbImage};
 use serde::Deserialize;
 
 use super::mask::Mask;
-use super::recolour::distance_to_outside;
 use super::rng::SplitMix64;
 use super::{parse_params, EditInput, Operation, Params, Rendered};
 use crate::spec::Effect;
@@ -232,7 +231,8 @@ pub struct BlurFillParams {
 /// the middle of the hole still gets weight e^(−½) from its nearest surroundings.
 #[must_use]
 pub fn default_blur_sigma(mask: &Mask) -> f64 {
-    let radius = distance_to_outside(mask)
+    let radius = mask
+        .distance_to_outside()
         .into_iter()
         .filter(|d| d.is_finite())
         .fold(0.0, f64::max);

@@ -50,7 +50,7 @@ pub fn place_placebo(mask: &Mask, all_regions: &[Mask], seed: u64, margin_px: u3
             .filter(|&i| box_is_clear(i))
             .nth(pick as usize)?;
         let (dx, dy) = offset_of(i);
-        return translate(mask, dx, dy);
+        return mask.translate(dx, dy);
     }
 
     // No clear box: check the shape itself, pixel by pixel.
@@ -76,7 +76,7 @@ pub fn place_placebo(mask: &Mask, all_regions: &[Mask], seed: u64, margin_px: u3
             }
         }
         if fits {
-            return translate(mask, dx, dy);
+            return mask.translate(dx, dy);
         }
     }
     None
@@ -96,24 +96,6 @@ fn forbidden_pixels(w: u32, h: u32, regions: &[Mask], margin_px: u32) -> Vec<boo
         }
     }
     forbidden
-}
-
-/// The mask moved by (dx, dy); `None` if a pixel would leave the image.
-fn translate(mask: &Mask, dx: i64, dy: i64) -> Option<Mask> {
-    let (w, h) = (mask.width() as i64, mask.height() as i64);
-    let mut inside = vec![false; (w * h) as usize];
-    for y in 0..h {
-        for x in 0..w {
-            if mask.contains(x as u32, y as u32) {
-                let (nx, ny) = (x + dx, y + dy);
-                if nx < 0 || ny < 0 || nx >= w || ny >= h {
-                    return None;
-                }
-                inside[(ny * w + nx) as usize] = true;
-            }
-        }
-    }
-    Mask::from_vec(w as u32, h as u32, inside)
 }
 
 /// Counts of set pixels over boxes in constant time.

@@ -526,11 +526,7 @@ mod tests {
     use proptest::prelude::*;
 
     fn mask_from(w: u32, h: u32, f: impl Fn(u32, u32) -> bool) -> Mask {
-        let v = (0..h)
-            .flat_map(|y| (0..w).map(move |x| (x, y)))
-            .map(|(x, y)| f(x, y))
-            .collect();
-        Mask::from_vec(w, h, v).expect("test mask is non-empty")
+        Mask::from_fn(w, h, f).expect("test mask is non-empty")
     }
 
     fn params(r: f32) -> TeleaParams {

@@ -44,3 +44,21 @@ pub fn audit(spec: &Path, manifest: &Path) -> (tempfile::TempDir, RunOutcome, Ve
 pub fn bin() -> assert_cmd::Command {
     assert_cmd::Command::cargo_bin("twinaudit").unwrap()
 }
+
+/// Invented test image: noise drawn from `pixels`, or a periodic stripe pattern (so source
+/// patches match well).
+pub fn image_of(w: u32, h: u32, pixels: &[u8], periodic: bool) -> image::RgbImage {
+    image::RgbImage::from_fn(w, h, |x, y| {
+        if periodic {
+            let v = if (x + 2 * y) % 5 < 2 { 40 } else { 210 };
+            image::Rgb([v, 255 - v, v / 2])
+        } else {
+            let i = ((y * w + x) * 3) as usize % pixels.len();
+            image::Rgb([
+                pixels[i],
+                pixels[(i + 1) % pixels.len()],
+                pixels[(i + 2) % pixels.len()],
+            ])
+        }
+    })
+}
