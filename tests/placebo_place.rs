@@ -87,7 +87,7 @@ proptest! {
                 let (w, h) = (mask.width() as i64, mask.height() as i64);
                 for dy in -h..h {
                     for dx in -w..w {
-                        if let Some(m) = &mask.translate(dx, dy) {
+                        if let Some(m) = mask.translate(dx, dy) {
                             prop_assert!(!clear_of(&m, &regions, margin), "free offset ({dx}, {dy}) missed");
                         }
                     }
