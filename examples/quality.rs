@@ -35,6 +35,7 @@ use serde_json::{json, Value};
 use twinaudit::render::exemplar::{inpaint_exemplar, ExemplarParams};
 use twinaudit::render::mask::Mask;
 use twinaudit::render::poisson::{poisson_clone, PoissonParams};
+use twinaudit::render::quality::{psnr_in_mask, ssim_in_bounding_box};
 use twinaudit::render::telea::{inpaint_telea, TeleaParams};
 use twinaudit::synth::texture::{table_texture, TableKind, TableStyle};
 
@@ -216,92 +217,6 @@ struct Timing {
     min_ms: f64,
 }
 
-fn psnr_in_hole(truth: &RgbImage, fill: &RgbImage, hole: &Mask) -> f64 {
-    let (mut se, mut n) = (0.0, 0.0);
-    for (i, &inside) in hole.as_slice().iter().enumerate() {
-        if inside {
-            for c in 0..3 {
-                let d = f64::from(truth.as_raw()[i * 3 + c]) - f64::from(fill.as_raw()[i * 3 + c]);
-                se += d * d;
-                n += 1.0;
-            }
-        }
-    }
-    let mse = se / n;
-    if mse == 0.0 {
-        f64::INFINITY
-    } else {
-        10.0 * (255.0f64 * 255.0 / mse).log10()
-    }
-}
-
-/// Gaussian window weights, σ = 1.5, radius 5, normalised to sum 1.
-fn gaussian_taps() -> [f64; 11] {
-    let mut taps = [0.0; 11];
-    for (k, t) in taps.iter_mut().enumerate() {
-        let d = k as f64 - 5.0;
-        *t = (-d * d / (2.0 * 1.5 * 1.5)).exp();
-    }
-    let sum: f64 = taps.iter().sum();
-    taps.map(|t| t / sum)
-}
-
-/// Separable "valid" Gaussian filter of a `w`×`h` plane: output is (w−10)×(h−10).
-fn filter_valid(plane: &[f64], w: usize, h: usize, taps: &[f64; 11]) -> Vec<f64> {
-    let (ow, oh) = (w - 10, h - 10);
-    let mut rows = vec![0.0; ow * h];
-    for y in 0..h {
-        for x in 0..ow {
-            rows[y * ow + x] = (0..11).map(|k| taps[k] * plane[y * w + x + k]).sum();
-        }
-    }
-    let mut out = vec![0.0; ow * oh];
-    for y in 0..oh {
-        for x in 0..ow {
-            out[y * ow + x] = (0..11).map(|k| taps[k] * rows[(y + k) * ow + x]).sum();
-        }
-    }
-    out
-}
-
-/// Mean SSIM over the window centres whose 11×11 window lies in `bbox` ([x0, y0, x1, y1),
-/// exclusive ends), per RGB channel, averaged over channels. See the module doc.
-fn ssim_in_box(truth: &RgbImage, fill: &RgbImage, bbox: [u32; 4]) -> f64 {
-    let [x0, y0, x1, y1] = bbox.map(|v| v as usize);
-    let (w, h) = (x1 - x0, y1 - y0);
-    assert!(w > 10 && h > 10, "hole too small for an 11×11 SSIM window");
-    let taps = gaussian_taps();
-    let (c1, c2) = ((0.01f64 * 255.0).powi(2), (0.03f64 * 255.0).powi(2));
-    let mut total = 0.0;
-    for c in 0..3 {
-        let plane = |img: &RgbImage| -> Vec<f64> {
-            let mut v = Vec::with_capacity(w * h);
-            for y in y0..y1 {
-                for x in x0..x1 {
-                    v.push(f64::from(img.get_pixel(x as u32, y as u32)[c]));
-                }
-            }
-            v
-        };
-        let (a, b) = (plane(truth), plane(fill));
-        let prod = |p: &[f64], q: &[f64]| p.iter().zip(q).map(|(u, v)| u * v).collect::<Vec<_>>();
-        let mu_a = filter_valid(&a, w, h, &taps);
-        let mu_b = filter_valid(&b, w, h, &taps);
-        let aa = filter_valid(&prod(&a, &a), w, h, &taps);
-        let bb = filter_valid(&prod(&b, &b), w, h, &taps);
-        let ab = filter_valid(&prod(&a, &b), w, h, &taps);
-        let mut sum = 0.0;
-        for i in 0..mu_a.len() {
-            let (ma, mb) = (mu_a[i], mu_b[i]);
-            let (va, vb, cov) = (aa[i] - ma * ma, bb[i] - mb * mb, ab[i] - ma * mb);
-            sum += ((2.0 * ma * mb + c1) * (2.0 * cov + c2))
-                / ((ma * ma + mb * mb + c1) * (va + vb + c2));
-        }
-        total += sum / mu_a.len() as f64;
-    }
-    total / 3.0
-}
-
 fn save_rgb(image: &RgbImage, path: &Path) {
     image
         .save(path)
@@ -413,8 +328,9 @@ fn main() {
                 ("exemplar", &exemplar, t_exemplar),
             ] {
                 save_rgb(out, &ours.join(format!("{name}.{method}.png")));
-                let psnr = psnr_in_hole(truth, out, &hole);
-                let ssim = ssim_in_box(truth, out, bbox);
+                let psnr = psnr_in_mask(truth, out, &hole);
+                let ssim = ssim_in_bounding_box(truth, out, &hole)
+                    .expect("holes are larger than an SSIM window");
                 println!(
                     "{name:<18} {:>4.1}% {method:<9} {psnr:>8.2} {ssim:>7.4} {:>10.1}",
                     hole.area_fraction() * 100.0,

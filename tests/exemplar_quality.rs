@@ -22,6 +22,7 @@ use image::{Rgb, RgbImage};
 use twinaudit::render::erase::{ring_texture, TEXTURE_STD_THRESHOLD};
 use twinaudit::render::exemplar::{inpaint_exemplar, ExemplarParams};
 use twinaudit::render::mask::Mask;
+use twinaudit::render::quality::{psnr_in_mask, ssim_in_bounding_box};
 use twinaudit::render::telea::{inpaint_telea, TeleaParams};
 
 const SIZE: u32 = 128;
@@ -139,27 +140,6 @@ fn holes() -> Vec<Mask> {
     ]
 }
 
-/// 10·log10(255² / MSE) over the hole's pixels and channels (∞ for an exact fill).
-fn psnr_in_hole(truth: &RgbImage, fill: &RgbImage, hole: &Mask) -> f64 {
-    let mut se = 0.0;
-    let mut n = 0.0;
-    for (i, &inside) in hole.as_slice().iter().enumerate() {
-        if inside {
-            for c in 0..3 {
-                let d = f64::from(truth.as_raw()[i * 3 + c]) - f64::from(fill.as_raw()[i * 3 + c]);
-                se += d * d;
-                n += 1.0;
-            }
-        }
-    }
-    let mse = se / n;
-    if mse == 0.0 {
-        f64::INFINITY
-    } else {
-        10.0 * (255.0f64 * 255.0 / mse).log10()
-    }
-}
-
 /// Standard deviation of BT.601 luminance over the hole's pixels.
 fn luma_std_in_hole(image: &RgbImage, hole: &Mask) -> f64 {
     let v: Vec<f64> = hole
@@ -174,66 +154,6 @@ fn luma_std_in_hole(image: &RgbImage, hole: &Mask) -> f64 {
         .collect();
     let mean = v.iter().sum::<f64>() / v.len() as f64;
     (v.iter().map(|x| (x - mean) * (x - mean)).sum::<f64>() / v.len() as f64).sqrt()
-}
-
-/// Gaussian window weights, σ = 1.5, radius 5, normalised to sum 1.
-fn gaussian_taps() -> [f64; 11] {
-    let taps: [f64; 11] = std::array::from_fn(|k| {
-        let d = k as f64 - 5.0;
-        (-d * d / (2.0 * 1.5 * 1.5)).exp()
-    });
-    let sum: f64 = taps.iter().sum();
-    taps.map(|t| t / sum)
-}
-
-/// Separable "valid" Gaussian filter of a `w`×`h` plane: output is (w−10)×(h−10).
-fn filter_valid(plane: &[f64], w: usize, h: usize, taps: &[f64; 11]) -> Vec<f64> {
-    let (ow, oh) = (w - 10, h - 10);
-    let rows: Vec<f64> = (0..h * ow)
-        .map(|i| {
-            (0..11)
-                .map(|k| taps[k] * plane[(i / ow) * w + i % ow + k])
-                .sum()
-        })
-        .collect();
-    (0..oh * ow)
-        .map(|i| {
-            (0..11)
-                .map(|k| taps[k] * rows[(i / ow + k) * ow + i % ow])
-                .sum()
-        })
-        .collect()
-}
-
-/// Mean SSIM over the hole's bounding box (see the module doc), averaged over RGB channels.
-fn ssim_in_box(truth: &RgbImage, fill: &RgbImage, hole: &Mask) -> f64 {
-    let [x0, y0, w, h] = hole.bounding_box().map(|v| v as usize);
-    let taps = gaussian_taps();
-    let (c1, c2) = ((0.01f64 * 255.0).powi(2), (0.03f64 * 255.0).powi(2));
-    let mut total = 0.0;
-    for c in 0..3 {
-        let plane = |img: &RgbImage| -> Vec<f64> {
-            (0..w * h)
-                .map(|i| f64::from(img.get_pixel((x0 + i % w) as u32, (y0 + i / w) as u32)[c]))
-                .collect()
-        };
-        let (a, b) = (plane(truth), plane(fill));
-        let prod = |p: &[f64], q: &[f64]| p.iter().zip(q).map(|(u, v)| u * v).collect::<Vec<_>>();
-        let (mu_a, mu_b) = (filter_valid(&a, w, h, &taps), filter_valid(&b, w, h, &taps));
-        let aa = filter_valid(&prod(&a, &a), w, h, &taps);
-        let bb = filter_valid(&prod(&b, &b), w, h, &taps);
-        let ab = filter_valid(&prod(&a, &b), w, h, &taps);
-        let sum: f64 = (0..mu_a.len())
-            .map(|i| {
-                let (ma, mb) = (mu_a[i], mu_b[i]);
-                let (va, vb, cov) = (aa[i] - ma * ma, bb[i] - mb * mb, ab[i] - ma * mb);
-                ((2.0 * ma * mb + c1) * (2.0 * cov + c2))
-                    / ((ma * ma + mb * mb + c1) * (va + vb + c2))
-            })
-            .sum();
-        total += sum / mu_a.len() as f64;
-    }
-    total / 3.0
 }
 
 struct Row {
@@ -262,10 +182,12 @@ fn score(name: &'static str, textured: bool, truth: &RgbImage) -> Row {
         };
         let exemplar = inpaint_exemplar(truth, hole, &params);
         // Capped at 60 dB so one exact fill does not make the mean infinite.
-        pt += psnr_in_hole(truth, &telea, hole).min(60.0);
-        pe += psnr_in_hole(truth, &exemplar, hole).min(60.0);
-        qt += ssim_in_box(truth, &telea, hole);
-        qe += ssim_in_box(truth, &exemplar, hole);
+        pt += psnr_in_mask(truth, &telea, hole).min(60.0);
+        pe += psnr_in_mask(truth, &exemplar, hole).min(60.0);
+        qt += ssim_in_bounding_box(truth, &telea, hole)
+            .expect("holes are larger than an SSIM window");
+        qe += ssim_in_bounding_box(truth, &exemplar, hole)
+            .expect("holes are larger than an SSIM window");
         st += luma_std_in_hole(truth, hole);
         sf += luma_std_in_hole(&telea, hole);
         se += luma_std_in_hole(&exemplar, hole);

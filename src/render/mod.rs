@@ -12,6 +12,7 @@ pub mod exemplar;
 pub mod mask;
 pub mod placebo;
 pub mod poisson;
+pub mod quality;
 pub mod recolour;
 pub mod rng;
 pub mod telea;
