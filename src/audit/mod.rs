@@ -7,6 +7,7 @@
 
 pub mod checker;
 pub mod plan;
+pub mod replay;
 pub mod results;
 pub mod run_info;
 pub mod runner;

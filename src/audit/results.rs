@@ -51,6 +51,10 @@ pub struct PairRecord {
     /// `target`, `distractor` or `mixed`: which roles the edited regions have.
     pub role: String,
     pub regions: Vec<RegionRef>,
+    /// Regions annotated in the case (edited or not): the objects in the scene as far as the spec
+    /// knows them. Absent in files written before the field existed.
+    #[serde(default)]
+    pub n_case_regions: Option<u32>,
     /// Share of the image's pixels the edit was allowed to change.
     pub area_fraction: Option<f64>,
     /// Seed for the edit's random choices.

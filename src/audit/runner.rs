@@ -28,7 +28,7 @@ use crate::render::erase::EraseParams;
 use crate::render::mask::Mask;
 use crate::render::placebo::place_placebo;
 use crate::render::recolour::RecolourParams;
-use crate::render::{EditInput, Params};
+use crate::render::{find_operation, EditInput, Params, Rendered};
 use crate::spec::load::hex;
 use crate::spec::region::{rasterise, Rasterised, RegionError};
 use crate::spec::{load_specs, Case, Spec};
@@ -314,6 +314,7 @@ impl Context<'_> {
                     }
                 })
                 .collect(),
+            n_case_regions: Some(case.regions.len() as u32),
             area_fraction: None,
             seed: pair_seed(self.config.seed, &p.pair_id),
             expectation: p.expectation.clone(),
@@ -365,16 +366,8 @@ impl Context<'_> {
             Ok(img) => img,
             Err(e) => return fail_all(format!("case {:?}: {e}", case.id), emit),
         };
-        let regions: Vec<Result<Rasterised, RegionError>> = case
-            .regions
-            .iter()
-            .map(|r| rasterise(r, image.width(), image.height()))
-            .collect();
-        let all_masks: Vec<Mask> = regions
-            .iter()
-            .filter_map(|r| r.as_ref().ok().map(|r| r.mask.clone()))
-            .collect();
-        let before = match engine.predict(&image, &case.question) {
+        let scene = CaseScene::new(case, image);
+        let before = match engine.predict(&scene.image, &case.question) {
             Ok(p) => p,
             Err(e) => {
                 return fail_all(
@@ -387,9 +380,7 @@ impl Context<'_> {
             let mut rec = self.base_record(w, p);
             rec.before_correct = rec.truth.as_ref().map(|t| *t == before.answer);
             rec.before = Some(before.clone());
-            if let Err(message) = self.judge_pair(
-                case, p, &image, &regions, &all_masks, &before, engine, &mut rec,
-            ) {
+            if let Err(message) = self.judge_pair(case, p, &scene, &before, engine, &mut rec) {
                 rec.error = Some(format!(
                     "case {:?}, edit {:?}: {message}",
                     case.id, case.edits[p.edit_idx].id
@@ -401,51 +392,24 @@ impl Context<'_> {
         }
     }
 
-    #[allow(clippy::too_many_arguments)]
     fn judge_pair(
         &self,
         case: &Case,
         p: &PlannedPair,
-        image: &RgbImage,
-        regions: &[Result<Rasterised, RegionError>],
-        all_masks: &[Mask],
+        scene: &CaseScene,
         before: &Prediction,
         engine: &mut Engine,
         rec: &mut PairRecord,
     ) -> Result<(), String> {
         let edit = &case.edits[p.edit_idx];
-        let mut mask: Option<Mask> = None;
-        for &i in &edit.region_indices {
-            let r = regions[i].as_ref().map_err(|e| e.to_string())?;
-            if let Some(w) = &r.warning {
-                rec.warnings.push(w.clone());
-            }
-            mask = Some(match mask {
-                None => r.mask.clone(),
-                Some(m) => m
-                    .union(&r.mask)
-                    .expect("masks of one case share the image size"),
-            });
-        }
-        let mask = mask.expect("validated edits select at least one region");
-        let mask = if p.placebo_of.is_some() {
-            let margin_px = placebo_margin_px(&edit.operation, &edit.params);
-            place_placebo(&mask, all_masks, rec.seed, margin_px).ok_or_else(|| {
-                format!(
-                    "no free background for the placebo: the edit's shape, kept {margin_px} px \
-                     from every region, fits nowhere in the image"
-                )
-            })?
-        } else {
-            mask
-        };
-        let input = EditInput {
-            image,
-            mask: &mask,
-            all_regions: all_masks,
-            seed: rec.seed,
-        };
-        let rendered = p.operation.apply(&input, &edit.params)?;
+        let rendered = render_edit(
+            case,
+            p.edit_idx,
+            scene,
+            rec.seed,
+            p.placebo_of.is_some(),
+            &mut rec.warnings,
+        )?;
         rec.method = Some(rendered.method.clone());
         rec.area_fraction = Some(rendered.changed.area_fraction());
         rec.added_regions = rendered.added.iter().map(Mask::bounding_box).collect();
@@ -483,6 +447,95 @@ impl Context<'_> {
         rec.status = Status::Ok;
         Ok(())
     }
+}
+
+/// A case's image with its regions rasterised, shared by all of the case's edits.
+pub struct CaseScene {
+    pub image: RgbImage,
+    /// One entry per region of the case, in spec order.
+    pub regions: Vec<Result<Rasterised, RegionError>>,
+    /// Masks of the regions that rasterised.
+    pub all_masks: Vec<Mask>,
+}
+
+impl CaseScene {
+    pub fn new(case: &Case, image: RgbImage) -> CaseScene {
+        let regions: Vec<Result<Rasterised, RegionError>> = case
+            .regions
+            .iter()
+            .map(|r| rasterise(r, image.width(), image.height()))
+            .collect();
+        let all_masks = regions
+            .iter()
+            .filter_map(|r| r.as_ref().ok().map(|r| r.mask.clone()))
+            .collect();
+        CaseScene {
+            image,
+            regions,
+            all_masks,
+        }
+    }
+}
+
+/// The pixels one edit of a case acts on: the union of its regions or, for a placebo, that shape
+/// moved onto free background (chosen with `seed`). Region warnings (e.g. clipped at the border)
+/// are appended to `warnings`.
+pub fn edit_shape(
+    case: &Case,
+    edit_idx: usize,
+    scene: &CaseScene,
+    seed: u64,
+    placebo: bool,
+    warnings: &mut Vec<String>,
+) -> Result<Mask, String> {
+    let edit = &case.edits[edit_idx];
+    let mut mask: Option<Mask> = None;
+    for &i in &edit.region_indices {
+        let r = scene.regions[i].as_ref().map_err(|e| e.to_string())?;
+        if let Some(w) = &r.warning {
+            warnings.push(w.clone());
+        }
+        mask = Some(match mask {
+            None => r.mask.clone(),
+            Some(m) => m
+                .union(&r.mask)
+                .expect("masks of one case share the image size"),
+        });
+    }
+    let mask = mask.expect("validated edits select at least one region");
+    if !placebo {
+        return Ok(mask);
+    }
+    let margin_px = placebo_margin_px(&edit.operation, &edit.params);
+    place_placebo(&mask, &scene.all_masks, seed, margin_px).ok_or_else(|| {
+        format!(
+            "no free background for the placebo: the edit's shape, kept {margin_px} px \
+             from every region, fits nowhere in the image"
+        )
+    })
+}
+
+/// Renders one edit of a case on [`edit_shape`]. Pure: the same case, seed and flag give the same
+/// pixels, which is what lets review and training-pair export re-create edits a run did not save.
+pub fn render_edit(
+    case: &Case,
+    edit_idx: usize,
+    scene: &CaseScene,
+    seed: u64,
+    placebo: bool,
+    warnings: &mut Vec<String>,
+) -> Result<Rendered, String> {
+    let edit = &case.edits[edit_idx];
+    let operation = find_operation(&edit.operation)
+        .ok_or_else(|| format!("unknown operation {:?}", edit.operation))?;
+    let mask = edit_shape(case, edit_idx, scene, seed, placebo, warnings)?;
+    let input = EditInput {
+        image: &scene.image,
+        mask: &mask,
+        all_regions: &scene.all_masks,
+        seed,
+    };
+    operation.apply(&input, &edit.params)
 }
 
 /// Margin for operations whose reach is not known here: the default erase's (2 + 5 + 1).
