@@ -1,4 +1,7 @@
-//! Interval estimates for rates. Pure arithmetic, no I/O.
+//! Interval estimates for rates, and tests for paired outcomes ([`paired`]). Pure arithmetic,
+//! no I/O.
+
+pub mod paired;
 
 use serde::{Deserialize, Serialize};
 use statrs::distribution::{ContinuousCDF, Normal};
