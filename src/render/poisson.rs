@@ -8,16 +8,16 @@
 //! per mask pixel only and is solved by conjugate gradients warm-started from the plain paste and
 //! preconditioned with one multigrid V-cycle on the mask's bounding box (about ten iterations at
 //! any size); when the cycle converges slowly (masks thinner than its coarse cells) the solve
-//! continues with a modified incomplete Cholesky preconditioner. Large masks solve the three
-//! channels on parallel threads. Where Ω meets the image
+//! continues with a modified incomplete Cholesky preconditioner. The three channels travel
+//! together as lanes of one solve (one pass over memory serves all three; each lane's arithmetic
+//! is exactly that of a solve of its channel alone). Where Ω meets the image
 //! border there is no neighbour and no condition (only pixel pairs inside the image enter the
 //! equations), so the border acts as a free edge.
 //!
 //! Invariants: pixels outside the mask are bit-identical to the destination (they are never
 //! unknowns); the output has the destination's size; no input panics (mismatched sizes return the
 //! destination unchanged, source pixels outside the source image are read at the nearest edge);
-//! the result does not depend on thread scheduling (each channel is solved alone, in a fixed
-//! order of operations).
+//! the result is deterministic (one thread, a fixed order of operations).
 
 use image::RgbImage;
 
@@ -146,19 +146,17 @@ pub fn poisson_clone_with_stats(
     // Whole-image mask: no boundary condition, the plain paste is the answer. Otherwise every
     // connected part of the mask has a pixel just outside it, so the system is definite.
     let has_boundary = n < (w as usize) * (h as usize);
-    let solutions: Vec<Vec<f64>> = if has_boundary {
-        let system = System::from_grid(&grid);
-        let multigrid = Multigrid::new(&grid);
-        let solve_channel = |c: usize| {
-            let guess: Vec<f64> = grid
-                .free
-                .iter()
-                .map(|&g| src_plane[g as usize][c] as f64)
-                .collect();
-            // Right-hand side: guidance divergence plus the Dirichlet values next to the mask.
-            let mut rhs = vec![0.0f64; n];
-            for (p, &g) in grid.free.iter().enumerate() {
-                let g = g as usize;
+    let guess: Vec<Px> = grid
+        .free
+        .iter()
+        .map(|&g| src_plane[g as usize].map(f64::from))
+        .collect();
+    let solution: Vec<Px> = if has_boundary {
+        // Right-hand side: guidance divergence plus the Dirichlet values next to the mask.
+        let mut rhs = vec![[0.0f64; 3]; n];
+        for (p, &g) in grid.free.iter().enumerate() {
+            let g = g as usize;
+            for c in 0..3 {
                 let (gp, fp) = (src_plane[g][c] as f64, dest_plane[g][c] as f64);
                 for q in [g - 1, g + 1, g - gw, g + gw] {
                     let kind = grid.kind[q];
@@ -172,56 +170,21 @@ pub fn poisson_clone_with_stats(
                             v = dv;
                         }
                     }
-                    rhs[p] += v;
+                    rhs[p][c] += v;
                     if kind == FIXED {
-                        rhs[p] += dest_plane[q][c] as f64;
+                        rhs[p][c] += dest_plane[q][c] as f64;
                     }
                 }
             }
-            solve(
-                &system,
-                &mut multigrid.clone(),
-                &grid.free,
-                &rhs,
-                guess,
-                params,
-            )
-        };
-        // The channels are independent: large masks solve them on threads of their own (each
-        // with its own work space, so the result does not depend on scheduling).
-        let results: Vec<(Vec<f64>, usize, f64)> = if n >= PARALLEL_UNKNOWNS {
-            std::thread::scope(|scope| {
-                let handles: Vec<_> = (1..3)
-                    .map(|c| scope.spawn(move || solve_channel(c)))
-                    .collect();
-                let mut results = vec![solve_channel(0)];
-                for (handle, c) in handles.into_iter().zip(1..) {
-                    // A thread that cannot be joined (it cannot panic) is solved again here.
-                    results.push(handle.join().unwrap_or_else(|_| solve_channel(c)));
-                }
-                results
-            })
-        } else {
-            (0..3).map(solve_channel).collect()
-        };
-        results
-            .into_iter()
-            .enumerate()
-            .map(|(c, (x, iterations, rms))| {
-                stats.iterations[c] = iterations;
-                stats.rms_residual[c] = rms;
-                x
-            })
-            .collect()
+        }
+        let system = System::from_grid(&grid);
+        let mut multigrid = Multigrid::new(&grid);
+        let (x, iterations, rms) = solve(&system, &mut multigrid, &grid.free, &rhs, guess, params);
+        stats.iterations = iterations;
+        stats.rms_residual = rms;
+        x
     } else {
-        (0..3)
-            .map(|c| {
-                grid.free
-                    .iter()
-                    .map(|&g| src_plane[g as usize][c] as f64)
-                    .collect()
-            })
-            .collect()
+        guess
     };
     let out_raw: &mut [u8] = &mut out;
     for (p, &g) in grid.free.iter().enumerate() {
@@ -230,7 +193,7 @@ pub fn poisson_clone_with_stats(
         let y = (grid.origin.1 + gy as i64) as usize;
         let o = 3 * (y * w as usize + x);
         for c in 0..3 {
-            out_raw[o + c] = solutions[c][p].round().clamp(0.0, 255.0) as u8;
+            out_raw[o + c] = solution[p][c].round().clamp(0.0, 255.0) as u8;
         }
     }
     (out, stats)
@@ -339,10 +302,15 @@ struct Level {
     /// The unknowns as runs along rows, in row-major order.
     spans: Vec<Span>,
     n_unknowns: usize,
-    /// Correction and right-hand side (the correction is 0 outside the unknowns, always).
-    u: Vec<f32>,
-    rhs: Vec<f32>,
+    /// Correction and right-hand side per channel (the correction is 0 outside the unknowns,
+    /// always); the fourth lane is padding, so that each cell is one SIMD register.
+    u: Vec<[f32; 4]>,
+    rhs: Vec<[f32; 4]>,
 }
+
+/// One value per colour channel. Every solver step acts on each lane alone with the same
+/// operations in the same order, so a channel's result equals a solve of that channel by itself.
+type Px = [f64; 3];
 
 /// Unknown cells x0..x1 of row y.
 #[derive(Clone, Copy)]
@@ -352,8 +320,6 @@ struct Span {
     x1: usize,
 }
 
-/// Masks with at least this many pixels solve the three channels on parallel threads.
-const PARALLEL_UNKNOWNS: usize = 20_000;
 /// Pre- and post-smoothing sweeps (each a red and a black half-sweep) per level.
 const SMOOTHING_SWEEPS: usize = 2;
 /// Symmetric sweep pairs on the coarsest level.
@@ -398,8 +364,8 @@ impl Level {
             diag,
             spans,
             n_unknowns,
-            u: vec![0.0; n],
-            rhs: vec![0.0; n],
+            u: vec![[0.0; 4]; n],
+            rhs: vec![[0.0; 4]; n],
         }
     }
 
@@ -409,16 +375,33 @@ impl Level {
         let w = self.width;
         let (u, rhs, inv_diag) = (&mut self.u, &self.rhs, &self.inv_diag);
         for span in &self.spans {
-            // Rows above, at and below the span (unknowns are never on the grid's edge).
+            // Rows above, at and below the span (unknowns are never on the grid's edge), cut to
+            // the span so that the loop runs without bounds checks.
             let row = span.y * w;
-            let (head, tail) = u.split_at_mut(row);
-            let (middle, rest) = tail.split_at_mut(w);
-            let (above, below) = (&head[row - w..], &rest[..w]);
-            let (rhs, inv_diag) = (&rhs[row..row + w], &inv_diag[row..row + w]);
             let first = span.x0 + (span.x0 + span.y + colour) % 2;
-            for x in (first..span.x1).step_by(2) {
-                let s = rhs[x] + middle[x - 1] + middle[x + 1] + above[x] + below[x];
-                middle[x] = s * inv_diag[x];
+            if first >= span.x1 {
+                continue;
+            }
+            let len = span.x1 - first;
+            let (head, tail) = u.split_at_mut(row);
+            let above = &head[row - w + first..row - w + span.x1];
+            let (middle, rest) = tail.split_at_mut(w);
+            let below = &rest[first..span.x1];
+            let middle = &mut middle[first - 1..span.x1 + 1];
+            let rhs = &rhs[row + first..row + span.x1];
+            let inv_diag = &inv_diag[row + first..row + span.x1];
+            let mut i = 0;
+            while i < len {
+                let (r, l, rt, a, b, d) = (
+                    rhs[i],
+                    middle[i],
+                    middle[i + 2],
+                    above[i],
+                    below[i],
+                    inv_diag[i],
+                );
+                middle[i + 1] = std::array::from_fn(|c| (r[c] + l[c] + rt[c] + a[c] + b[c]) * d);
+                i += 2;
             }
         }
     }
@@ -432,7 +415,7 @@ impl Level {
     fn clear(&mut self) {
         let w = self.width;
         for span in &self.spans {
-            self.u[span.y * w + span.x0..span.y * w + span.x1].fill(0.0);
+            self.u[span.y * w + span.x0..span.y * w + span.x1].fill([0.0; 4]);
         }
     }
 }
@@ -482,16 +465,17 @@ impl Multigrid {
         Multigrid { levels }
     }
 
-    /// z = B r for the unknowns (numbered as [`Grid::free`]).
-    fn apply(&mut self, free: &[u32], r: &[f64], z: &mut [f64]) {
+    /// z = B r for the unknowns (numbered as [`Grid::free`]), every channel at once.
+    fn apply(&mut self, free: &[u32], r: &[Px], z: &mut [Px]) {
         let top = &mut self.levels[0];
-        for (&g, &v) in free.iter().zip(r) {
-            top.rhs[g as usize] = v as f32;
+        for (&g, v) in free.iter().zip(r) {
+            top.rhs[g as usize] = [v[0] as f32, v[1] as f32, v[2] as f32, 0.0];
         }
         v_cycle(&mut self.levels);
         let top = &self.levels[0];
         for (&g, o) in free.iter().zip(z.iter_mut()) {
-            *o = top.u[g as usize] as f64;
+            let u = top.u[g as usize];
+            *o = [u[0] as f64, u[1] as f64, u[2] as f64];
         }
     }
 }
@@ -515,7 +499,7 @@ fn v_cycle(levels: &mut [Level]) {
     }
     // Residual, restricted by R = Pᵀ: each fine unknown sends its residual to its four nearest
     // coarse cells (fine cell x has parent (x + 2) / 2; its other neighbour lies left for even x).
-    coarse.rhs.fill(0.0);
+    coarse.rhs.fill([0.0; 4]);
     let (fw, cw) = (fine.width, coarse.width);
     for span in &fine.spans {
         let (u, row) = (&fine.u, span.y * fw);
@@ -527,15 +511,24 @@ fn v_cycle(levels: &mut [Level]) {
         };
         for x in span.x0..span.x1 {
             let g = row + x;
-            let au = fine.diag[g] * u[g] - (u[g - 1] + u[g + 1] + u[g - fw] + u[g + fw]);
-            let r = fine.rhs[g] - au;
+            let d = fine.diag[g];
+            let (f, c, l, rt, a, b) = (fine.rhs[g], u[g], u[g - 1], u[g + 1], u[g - fw], u[g + fw]);
+            let r: [f32; 4] =
+                std::array::from_fn(|k| f[k] - (d * c[k] - (l[k] + rt[k] + a[k] + b[k])));
             let cx = (x + 2) / 2;
             let ox = if x % 2 == 0 { cx - 1 } else { cx + 1 };
             let rhs = &mut coarse.rhs;
-            rhs[crow + cx] += 0.5625 * r;
-            rhs[crow + ox] += 0.1875 * r;
-            rhs[dy + cx] += 0.1875 * r;
-            rhs[dy + ox] += 0.0625 * r;
+            for (cell, weight) in [
+                (crow + cx, 0.5625f32),
+                (crow + ox, 0.1875),
+                (dy + cx, 0.1875),
+                (dy + ox, 0.0625),
+            ] {
+                let t = &mut rhs[cell];
+                for k in 0..4 {
+                    t[k] += weight * r[k];
+                }
+            }
         }
     }
     v_cycle(coarser);
@@ -552,8 +545,11 @@ fn v_cycle(levels: &mut [Level]) {
         for x in span.x0..span.x1 {
             let cx = (x + 2) / 2;
             let ox = if x % 2 == 0 { cx - 1 } else { cx + 1 };
-            fine.u[row + x] +=
-                0.5625 * e[crow + cx] + 0.1875 * (e[crow + ox] + e[dy + cx]) + 0.0625 * e[dy + ox];
+            let (a, b, c, d) = (e[crow + cx], e[crow + ox], e[dy + cx], e[dy + ox]);
+            let t = &mut fine.u[row + x];
+            for k in 0..4 {
+                t[k] += 0.5625 * a[k] + 0.1875 * (b[k] + c[k]) + 0.0625 * d[k];
+            }
         }
     }
     for _ in 0..SMOOTHING_SWEEPS {
@@ -591,12 +587,16 @@ impl System {
         System { diag, links }
     }
 
-    fn apply(&self, f: &[f64], out: &mut [f64]) {
+    fn apply(&self, f: &[Px], out: &mut [Px]) {
         for (p, (o, l)) in out.iter_mut().zip(&self.links).enumerate() {
-            let mut s = self.diag[p] * f[p];
+            let d = self.diag[p];
+            let mut s = f[p].map(|v| d * v);
             for &q in l {
                 if q != NO_LINK {
-                    s -= f[q as usize];
+                    let fq = f[q as usize];
+                    for c in 0..3 {
+                        s[c] -= fq[c];
+                    }
                 }
             }
             *o = s;
@@ -604,8 +604,15 @@ impl System {
     }
 }
 
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
+/// Per-channel dot products.
+fn dot(a: &[Px], b: &[Px]) -> Px {
+    let mut sum = [-0.0f64; 3];
+    for (x, y) in a.iter().zip(b) {
+        for c in 0..3 {
+            sum[c] += x[c] * y[c];
+        }
+    }
+    sum
 }
 
 /// Relaxation of the modified incomplete Cholesky factorisation (1 = fully modified); slightly
@@ -663,29 +670,35 @@ impl Preconditioner {
     }
 
     /// z = M⁻¹ r: forward substitution with (D + L), then backward with D⁻¹(D + L)ᵀ.
-    fn solve(&self, a: &System, r: &[f64], z: &mut [f64]) {
+    fn solve(&self, a: &System, r: &[Px], z: &mut [Px]) {
         let n = r.len();
         for i in 0..n {
             let [left, _, up, _] = a.links[i];
             let mut s = r[i];
-            if left != NO_LINK {
-                s += z[left as usize];
+            for q in [left, up] {
+                if q != NO_LINK {
+                    let zq = z[q as usize];
+                    for c in 0..3 {
+                        s[c] += zq[c];
+                    }
+                }
             }
-            if up != NO_LINK {
-                s += z[up as usize];
-            }
-            z[i] = s * self.inv_pivot[i];
+            z[i] = s.map(|v| v * self.inv_pivot[i]);
         }
         for i in (0..n).rev() {
             let [_, right, _, down] = a.links[i];
-            let mut s = 0.0;
-            if right != NO_LINK {
-                s += z[right as usize];
+            let mut s = [0.0f64; 3];
+            for q in [right, down] {
+                if q != NO_LINK {
+                    let zq = z[q as usize];
+                    for c in 0..3 {
+                        s[c] += zq[c];
+                    }
+                }
             }
-            if down != NO_LINK {
-                s += z[down as usize];
+            for c in 0..3 {
+                z[i][c] += s[c] * self.inv_pivot[i];
             }
-            z[i] += s * self.inv_pivot[i];
         }
     }
 }
@@ -701,106 +714,178 @@ const MULTIGRID_ITERATION_CAP: usize = 100;
 const MULTIGRID_SLOW_RATE: f64 = 0.7;
 const MULTIGRID_PROBATION: usize = 6;
 
-/// Solves A x = b from `x`: conjugate gradients preconditioned by a multigrid V-cycle
-/// ([`Multigrid`]), falling back to the MIC(0) preconditioner ([`Preconditioner`]).
-/// Returns the iterate, the iterations run and the final RMS residual.
+/// Solves A x = b from `x` for the three channels: conjugate gradients preconditioned by a
+/// multigrid V-cycle ([`Multigrid`]), then, for channels that have not converged, the MIC(0)
+/// preconditioner ([`Preconditioner`]). Returns the iterate, the iterations run and the final
+/// RMS residual per channel.
 fn solve(
     a: &System,
     multigrid: &mut Multigrid,
     free: &[u32],
-    b: &[f64],
-    x: Vec<f64>,
+    b: &[Px],
+    x: Vec<Px>,
     params: &PoissonParams,
-) -> (Vec<f64>, usize, f64) {
+) -> (Vec<Px>, [usize; 3], [f64; 3]) {
     let cap = params.max_iterations.min(MULTIGRID_ITERATION_CAP);
-    let (x, iterations, rms, converged) = conjugate_gradients(
+    let first = conjugate_gradients(
         a,
         b,
         x,
         params.tolerance,
-        cap,
+        [cap; 3],
         MULTIGRID_SLOW_RATE,
         &mut |r, z| multigrid.apply(free, r, z),
     );
-    let remaining = params.max_iterations - iterations;
-    if converged || remaining == 0 {
-        return (x, iterations, rms);
+    let remaining: [usize; 3] = std::array::from_fn(|c| {
+        if first.converged[c] {
+            0
+        } else {
+            params.max_iterations - first.iterations[c]
+        }
+    });
+    if remaining == [0; 3] {
+        return (first.x, first.iterations, first.rms);
     }
     let m = Preconditioner::new(a);
-    let (x, more, rms, _) =
-        conjugate_gradients(a, b, x, params.tolerance, remaining, 1.0, &mut |r, z| {
-            m.solve(a, r, z)
-        });
-    (x, iterations + more, rms)
+    let second = conjugate_gradients(
+        a,
+        b,
+        first.x,
+        params.tolerance,
+        remaining,
+        1.0,
+        &mut |r, z| m.solve(a, r, z),
+    );
+    let mut rms = first.rms;
+    for c in 0..3 {
+        if remaining[c] > 0 {
+            rms[c] = second.rms[c];
+        }
+    }
+    (
+        second.x,
+        std::array::from_fn(|c| first.iterations[c] + second.iterations[c]),
+        rms,
+    )
 }
 
-/// Preconditioned conjugate gradients from `x` with z = M⁻¹ r computed by `precondition`;
-/// stops when the RMS residual ‖b − Ax‖/√n is at most `tolerance`, after `max_iterations`, when
-/// the preconditioner proves not positive definite, or when after [`MULTIGRID_PROBATION`]
-/// iterations the residual norm has shrunk by less than `slow_rate` per iteration on average. Returns the iterate, the iterations
-/// run, the final RMS residual and whether the tolerance was met.
+/// What [`conjugate_gradients`] ends with, per channel.
+struct CgOutcome {
+    x: Vec<Px>,
+    iterations: [usize; 3],
+    rms: [f64; 3],
+    converged: [bool; 3],
+}
+
+/// Preconditioned conjugate gradients from `x` with z = M⁻¹ r computed by `precondition`, the
+/// three channels side by side. A channel stops when its RMS residual ‖b − Ax‖/√n is at most
+/// `tolerance`, after its `max_iterations`, when the preconditioner proves not positive definite
+/// for it, or when after [`MULTIGRID_PROBATION`] iterations its residual norm has shrunk by less
+/// than `slow_rate` per iteration on average; a stopped channel's iterate is frozen (its step
+/// length is 0), so it ends exactly as a solve of that channel alone would.
 ///
 /// # References
 /// M. R. Hestenes, E. Stiefel, "Methods of conjugate gradients for solving linear systems",
 /// Journal of Research of the National Bureau of Standards 49(6), 1952.
 fn conjugate_gradients(
     a: &System,
-    b: &[f64],
-    mut x: Vec<f64>,
+    b: &[Px],
+    mut x: Vec<Px>,
     tolerance: f64,
-    max_iterations: usize,
+    max_iterations: [usize; 3],
     slow_rate: f64,
-    precondition: &mut dyn FnMut(&[f64], &mut [f64]),
-) -> (Vec<f64>, usize, f64, bool) {
+    precondition: &mut dyn FnMut(&[Px], &mut [Px]),
+) -> CgOutcome {
     let n = b.len();
     let threshold = tolerance.max(0.0).powi(2) * n as f64;
-    let rms = |rr: f64| if n == 0 { 0.0 } else { (rr / n as f64).sqrt() };
-    let mut ap = vec![0.0; n];
+    let rms = |rr: Px| rr.map(|v| if n == 0 { 0.0 } else { (v / n as f64).sqrt() });
+    let mut ap = vec![[0.0; 3]; n];
     a.apply(&x, &mut ap);
-    let mut r: Vec<f64> = b.iter().zip(&ap).map(|(bi, ai)| bi - ai).collect();
+    let mut r: Vec<Px> = b
+        .iter()
+        .zip(&ap)
+        .map(|(bi, ai)| std::array::from_fn(|c| bi[c] - ai[c]))
+        .collect();
     let mut rr = dot(&r, &r);
     let rr_start = rr;
-    let mut iterations = 0;
-    if rr <= threshold || max_iterations == 0 {
-        return (x, 0, rms(rr), rr <= threshold);
+    let mut iterations = [0usize; 3];
+    let mut active: [bool; 3] = std::array::from_fn(|c| rr[c] > threshold && max_iterations[c] > 0);
+    let outcome = |x, iterations, rr: Px| CgOutcome {
+        x,
+        iterations,
+        rms: rms(rr),
+        converged: rr.map(|v| v <= threshold),
+    };
+    if !active.contains(&true) {
+        return outcome(x, iterations, rr);
     }
-    let mut z = vec![0.0; n];
+    let mut z = vec![[0.0; 3]; n];
     precondition(&r, &mut z);
     let mut p = z.clone();
     let mut rz = dot(&r, &z);
-    while rr > threshold && iterations < max_iterations {
-        if !(rz.is_finite() && rz > 0.0) {
+    loop {
+        for c in 0..3 {
+            if !(rz[c].is_finite() && rz[c] > 0.0) {
+                active[c] = false;
+            }
+        }
+        if !active.contains(&true) {
             break;
         }
         a.apply(&p, &mut ap);
         let pap = dot(&p, &ap);
-        if !(pap.is_finite() && pap > 0.0) {
+        let mut alpha = [0.0f64; 3];
+        for c in 0..3 {
+            if active[c] && pap[c].is_finite() && pap[c] > 0.0 {
+                alpha[c] = rz[c] / pap[c];
+            } else {
+                active[c] = false;
+            }
+        }
+        if !active.contains(&true) {
             break;
         }
-        let alpha = rz / pap;
         for i in 0..n {
-            x[i] += alpha * p[i];
-            r[i] -= alpha * ap[i];
+            for c in 0..3 {
+                if active[c] {
+                    x[i][c] += alpha[c] * p[i][c];
+                    r[i][c] -= alpha[c] * ap[i][c];
+                }
+            }
         }
-        rr = dot(&r, &r);
-        iterations += 1;
-        if rr <= threshold {
-            break;
+        let rr_new = dot(&r, &r);
+        for c in 0..3 {
+            if !active[c] {
+                continue;
+            }
+            rr[c] = rr_new[c];
+            iterations[c] += 1;
+            let slow = iterations[c] >= MULTIGRID_PROBATION
+                && (rr[c] / rr_start[c]).powf(0.5 / iterations[c] as f64) > slow_rate;
+            if rr[c] <= threshold || iterations[c] >= max_iterations[c] || slow {
+                active[c] = false;
+            }
         }
-        if iterations >= MULTIGRID_PROBATION
-            && (rr / rr_start).powf(0.5 / iterations as f64) > slow_rate
-        {
+        if !active.contains(&true) {
             break;
         }
         precondition(&r, &mut z);
         let rz_next = dot(&r, &z);
-        let beta = rz_next / rz;
-        for i in 0..n {
-            p[i] = z[i] + beta * p[i];
+        let beta: Px = std::array::from_fn(|c| rz_next[c] / rz[c]);
+        for (pi, zi) in p.iter_mut().zip(&z) {
+            for c in 0..3 {
+                if active[c] {
+                    pi[c] = zi[c] + beta[c] * pi[c];
+                }
+            }
         }
-        rz = rz_next;
+        for c in 0..3 {
+            if active[c] {
+                rz[c] = rz_next[c];
+            }
+        }
     }
-    (x, iterations, rms(rr), rr <= threshold)
+    outcome(x, iterations, rr)
 }
 
 #[cfg(test)]
