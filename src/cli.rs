@@ -7,6 +7,9 @@ use std::path::PathBuf;
 use anyhow::{bail, Context};
 use clap::{Args, Parser, Subcommand};
 
+use crate::analysis::compare::{
+    compare_runs, render_text as render_compare_text, CompareConfig, CompareOptions,
+};
 use crate::audit::summary::render_text;
 use crate::audit::{run_audit, RunConfig};
 use crate::model::check::{check_manifest, describe};
@@ -34,6 +37,28 @@ pub enum Command {
     Demo(DemoArgs),
     /// Generate fruit-stall scenes with exact masks, an edit spec and scenes.jsonl.
     Synth(SynthArgs),
+    /// Compare two runs on the same pairs: rates, paired differences (B − A) and McNemar tests.
+    Compare(CompareArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    /// Run folder A (the baseline).
+    pub run_a: PathBuf,
+    /// Run folder B (compared against A; differences are B − A).
+    pub run_b: PathBuf,
+    /// Confidence level of every interval.
+    #[arg(long, default_value_t = 0.95)]
+    pub confidence: f64,
+    /// Significance level of the McNemar tests (Holm-adjusted within the group and accuracy tables).
+    #[arg(long, default_value_t = crate::analysis::compare::DEFAULT_ALPHA)]
+    pub alpha: f64,
+    /// Print the comparison as JSON (docs/compare.md) instead of the report.
+    #[arg(long)]
+    pub json: bool,
+    /// Exit with code 1 when B is significantly worse than A in any row (for CI).
+    #[arg(long)]
+    pub fail_on_regression: bool,
 }
 
 #[derive(Debug, Args)]
@@ -147,7 +172,37 @@ pub fn execute(cli: Cli) -> anyhow::Result<u8> {
         Command::Inspect(args) => inspect(args),
         Command::Demo(args) => demo(args),
         Command::Synth(args) => synth(args),
+        Command::Compare(args) => compare(args),
     }
+}
+
+fn compare(args: CompareArgs) -> anyhow::Result<u8> {
+    let config = CompareConfig {
+        options: CompareOptions::new(args.confidence, args.alpha)
+            .context("invalid --confidence or --alpha")?,
+        run_a: args.run_a,
+        run_b: args.run_b,
+    };
+    let comparison = compare_runs(&config).with_context(|| {
+        format!(
+            "cannot compare {} with {}",
+            config.run_a.display(),
+            config.run_b.display()
+        )
+    })?;
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(&comparison)?);
+    } else {
+        print!("{}", render_compare_text(&comparison));
+    }
+    if args.fail_on_regression && comparison.n_rows_b_worse > 0 {
+        eprintln!(
+            "twinaudit: run B ({}) is significantly worse than run A ({}) in {} row(s)",
+            comparison.run_b.dir, comparison.run_a.dir, comparison.n_rows_b_worse
+        );
+        return Ok(1);
+    }
+    Ok(0)
 }
 
 fn synth(args: SynthArgs) -> anyhow::Result<u8> {

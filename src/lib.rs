@@ -2,8 +2,10 @@
 //!
 //! Pipeline: [`spec`] (cases, regions, edits, expectations) → [`render`] (edits on pixels) →
 //! [`model`] (ONNX engine, manifests, pre/post-processing) → [`audit`] (runner, checker) →
-//! [`stats`] for intervals. [`cli`] turns command lines into calls; `main.rs` only maps exit codes.
+//! [`stats`] for intervals; [`analysis`] reads finished runs back (comparing two runs). [`cli`]
+//! turns command lines into calls; `main.rs` only maps exit codes.
 
+pub mod analysis;
 pub mod audit;
 pub mod cli;
 pub mod imageio;

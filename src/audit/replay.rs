@@ -11,7 +11,7 @@ use std::path::{Path, PathBuf};
 use image::RgbImage;
 
 use super::plan::PLACEBO_SUFFIX;
-use super::results::{read_results, PairRecord};
+use super::results::{read_results_readonly, PairRecord};
 use super::run_info::{read_run_info, RunInfo};
 use super::runner::{edit_shape, render_edit, CaseScene, RESULTS_FILE, RUN_FILE};
 use crate::imageio;
@@ -73,7 +73,7 @@ impl RunFolder {
         if !results.is_file() {
             return Err(not_a_run(format!("{} is missing", results.display())));
         }
-        let records = read_results(&results).map_err(|e| not_a_run(e.to_string()))?;
+        let records = read_results_readonly(&results).map_err(|e| not_a_run(e.to_string()))?;
         Ok(RunFolder {
             dir: dir.to_path_buf(),
             info,

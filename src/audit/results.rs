@@ -108,8 +108,19 @@ pub enum ResultsError {
     },
 }
 
-/// Reads every complete line; a partial last line (from a killed run) is cut off the file.
+/// Reads every complete line; a partial last line (from a killed run) is cut off the file, so a
+/// resume can append after it.
 pub fn read_results(path: &Path) -> Result<Vec<PairRecord>, ResultsError> {
+    read_lines(path, true)
+}
+
+/// Reads every complete line and ignores a partial last line without touching the file: for
+/// readers of a finished (or still running) run, which must never write into it.
+pub fn read_results_readonly(path: &Path) -> Result<Vec<PairRecord>, ResultsError> {
+    read_lines(path, false)
+}
+
+fn read_lines(path: &Path, cut_partial_line: bool) -> Result<Vec<PairRecord>, ResultsError> {
     let io = |source| ResultsError::Io {
         path: path.to_path_buf(),
         source,
@@ -119,7 +130,7 @@ pub fn read_results(path: &Path) -> Result<Vec<PairRecord>, ResultsError> {
     }
     let bytes = std::fs::read(path).map_err(io)?;
     let complete = bytes.iter().rposition(|&b| b == b'\n').map_or(0, |i| i + 1);
-    if complete < bytes.len() {
+    if cut_partial_line && complete < bytes.len() {
         let f = OpenOptions::new().write(true).open(path).map_err(io)?;
         f.set_len(complete as u64).map_err(io)?;
     }

@@ -1,6 +1,7 @@
-//! Interval estimates for rates, and tests for paired outcomes ([`paired`]). Pure arithmetic,
-//! no I/O.
+//! Interval estimates for rates, tests for paired outcomes ([`paired`]) and multiple-comparison
+//! adjustment ([`multiple`]). Pure arithmetic, no I/O.
 
+pub mod multiple;
 pub mod paired;
 
 use serde::{Deserialize, Serialize};
