@@ -124,7 +124,10 @@ pub fn newcombe_paired_difference(t: PairedCounts, confidence: f64) -> Option<Di
     let (l1, u1) = wilson_interval(first, n, confidence)?;
     let (l2, u2) = wilson_interval(second, n, confidence)?;
     let margins = [t.a + t.b, t.c + t.d, t.a + t.c, t.b + t.d];
-    // Newcombe's φ: ad − bc shrunk by n/2 towards 0 when positive, 0 in between, kept when negative.
+    // Newcombe's φ: ad − bc shrunk by n/2 towards 0 when positive, 0 in between, kept when
+    // negative. The same rule is in R's biostatUZH `confIntPairedProportion` (citing Altman et
+    // al., "Statistics with Confidence", 2000, p. 52); without it the worked example in the test
+    // gives 0.0618-0.3242 instead of Newcombe's 0.0562-0.3292.
     let phi = if margins.contains(&0) {
         0.0
     } else {
