@@ -2,12 +2,14 @@
 //!
 //! Pipeline: [`spec`] (cases, regions, edits, expectations) → [`render`] (edits on pixels) →
 //! [`model`] (ONNX engine, manifests, pre/post-processing) → [`audit`] (runner, checker) →
-//! [`stats`] for intervals. [`cli`] turns command lines into calls; `main.rs` only maps exit codes.
+//! [`stats`] for intervals; [`pairs`] turns a run into training data. [`cli`] turns command
+//! lines into calls; `main.rs` only maps exit codes.
 
 pub mod audit;
 pub mod cli;
 pub mod imageio;
 pub mod model;
+pub mod pairs;
 pub mod render;
 pub mod spec;
 pub mod stats;
