@@ -56,9 +56,12 @@ pub struct PairsArgs {
     /// Also write each case's unedited image with its question and ground truth (relation `original`).
     #[arg(long)]
     pub originals: bool,
-    /// Keep only the pairs the audited model failed.
+    /// Keep only the pairs the audit judged failed (flipped, did not move, moved elsewhere).
     #[arg(long)]
     pub only_failed: bool,
+    /// Keep only the pairs whose answer on the edited image differs from the row's label.
+    #[arg(long)]
+    pub only_wrong: bool,
     /// Keep as many change as same pairs in each split (the larger relation is subsampled).
     #[arg(long)]
     pub balance: bool,
@@ -205,6 +208,7 @@ fn pairs(args: PairsArgs) -> anyhow::Result<u8> {
             validation_fraction: args.validation_fraction,
             include_originals: args.originals,
             only_failed: args.only_failed,
+            only_wrong: args.only_wrong,
             balance: args.balance,
             max_per_image: args.max_per_image,
             include_placebo: args.placebo,

@@ -636,6 +636,30 @@ fn options_select_what_they_claim() {
     assert_eq!(failed_rows.len(), n_default - n_passed_labelled);
     assert_eq!(s.left_out["model_passed"], n_passed_labelled);
 
+    // --only-wrong: exactly the labelled pairs whose edited-image answer differs from the label.
+    let (s, wrong) = build(
+        "wrong",
+        SelectOptions {
+            only_wrong: true,
+            ..options(0)
+        },
+    );
+    let after: BTreeMap<&str, &str> = recs
+        .iter()
+        .filter_map(|r| Some((r.pair_id.as_str(), r.after.as_ref()?.answer.as_str())))
+        .collect();
+    let is_wrong =
+        |r: &&serde_json::Map<String, Value>| after[str_of(r, "pair_id")] != str_of(r, "answer");
+    let wrong_rows: Vec<_> = wrong.values().flatten().collect();
+    assert!(wrong_rows.iter().all(is_wrong));
+    let n_right = default.values().flatten().filter(|r| !is_wrong(r)).count();
+    assert!(
+        n_right > 0,
+        "c-count/erase-red1: the model says 0, the label is 0"
+    );
+    assert_eq!(wrong_rows.len(), n_default - n_right);
+    assert_eq!(s.left_out["model_right"], n_right);
+
     // --max-per-image 2: at most two pairs of each source image.
     let (s, capped) = build(
         "capped",

@@ -70,6 +70,8 @@ pub enum Reason {
     SkipSourceUnreadable,
     /// `--only-failed`: the model passed this pair.
     LeftOutModelPassed,
+    /// `--only-wrong`: the model's answer on the edited image equals the row's label.
+    LeftOutModelRight,
     /// Beyond `--max-per-image` pairs of one source image.
     LeftOutOverCap,
     /// Dropped by `--balance` from the larger relation of its split.
@@ -87,6 +89,7 @@ impl Reason {
             Reason::SkipSameWithoutTruth => "same_without_truth",
             Reason::SkipSourceUnreadable => "source_unreadable",
             Reason::LeftOutModelPassed => "model_passed",
+            Reason::LeftOutModelRight => "model_right",
             Reason::LeftOutOverCap => "over_cap",
             Reason::LeftOutBalance => "balance",
             Reason::SkipOriginalWithoutTruth => "original_without_truth",
@@ -99,6 +102,7 @@ impl Reason {
             self,
             Reason::LeftOutPlacebo
                 | Reason::LeftOutModelPassed
+                | Reason::LeftOutModelRight
                 | Reason::LeftOutOverCap
                 | Reason::LeftOutBalance
         )
@@ -112,7 +116,10 @@ pub struct SelectOptions {
     /// Share of source images in validation, in [0, 1); 0 writes train only.
     pub validation_fraction: f64,
     pub include_originals: bool,
+    /// Keep only pairs the audit judged failed (verdict, docs/results.md).
     pub only_failed: bool,
+    /// Keep only pairs whose answer on the edited image differs from the row's label.
+    pub only_wrong: bool,
     pub balance: bool,
     pub max_per_image: Option<usize>,
     pub include_placebo: bool,
@@ -129,6 +136,7 @@ impl SelectOptions {
             validation_fraction: DEFAULT_VALIDATION_FRACTION,
             include_originals: false,
             only_failed: false,
+            only_wrong: false,
             balance: false,
             max_per_image: None,
             include_placebo: false,
@@ -204,6 +212,10 @@ fn label(record: &PairRecord, options: &SelectOptions) -> Result<(Relation, Stri
     };
     if options.only_failed && record.passed != Some(false) {
         return Err(Reason::LeftOutModelPassed);
+    }
+    // A verdict compares the model with itself (held, moved); this compares it with the label.
+    if options.only_wrong && record.after.as_ref().map(|a| &a.answer) == Some(&labelled.1) {
+        return Err(Reason::LeftOutModelRight);
     }
     Ok(labelled)
 }
