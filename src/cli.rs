@@ -39,6 +39,9 @@ pub enum Command {
     Synth(SynthArgs),
     /// Compare two runs on the same pairs: rates, paired differences (B − A) and McNemar tests.
     Compare(CompareArgs),
+    /// Turn a finished run into training data: each edited image with its counterfactual answer,
+    /// as an ImageFolder dataset (train/ and validation/ with metadata.jsonl).
+    Pairs(PairsArgs),
 }
 
 #[derive(Debug, Args)]
@@ -59,6 +62,46 @@ pub struct CompareArgs {
     /// Exit with code 1 when B is significantly worse than A in any row (for CI).
     #[arg(long)]
     pub fail_on_regression: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct PairsArgs {
+    /// Run folder written by `twinaudit run` or `twinaudit demo` (its spec files must be
+    /// readable and unchanged).
+    pub run_dir: PathBuf,
+    /// Output folder; must not exist or be empty.
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Seed of the split, the cap and the balance (same seed and options, same bytes).
+    #[arg(long, default_value_t = 0)]
+    pub seed: u64,
+    /// Share of source images whose rows go to validation/, in [0, 1); 0 writes train/ only.
+    #[arg(long, default_value_t = crate::pairs::select::DEFAULT_VALIDATION_FRACTION)]
+    pub validation_fraction: f64,
+    /// Also write each case's unedited image with its question and ground truth (relation `original`).
+    #[arg(long)]
+    pub originals: bool,
+    /// Keep only the pairs the audit judged failed (flipped, did not move, moved elsewhere).
+    #[arg(long)]
+    pub only_failed: bool,
+    /// Keep only the pairs whose answer on the edited image differs from the row's label.
+    #[arg(long)]
+    pub only_wrong: bool,
+    /// Keep as many change as same pairs in each split (the larger relation is subsampled).
+    #[arg(long)]
+    pub balance: bool,
+    /// Keep at most this many pairs per source image (chosen by the seed).
+    #[arg(long)]
+    pub max_per_image: Option<usize>,
+    /// Keep placebo controls (from `run --placebo`) as same pairs; they are left out by default.
+    #[arg(long)]
+    pub placebo: bool,
+    /// Threads rendering and writing images [default: number of cores].
+    #[arg(long)]
+    pub jobs: Option<usize>,
+    /// Print pairs.json on stdout instead of the table (no progress bar).
+    #[arg(long)]
+    pub json: bool,
 }
 
 #[derive(Debug, Args)]
@@ -165,6 +208,11 @@ pub struct InspectArgs {
     pub json: bool,
 }
 
+/// Cores available to this process (the default of every `--jobs`).
+fn n_cores() -> usize {
+    std::thread::available_parallelism().map_or(1, |n| n.get())
+}
+
 /// Runs a command; returns the process exit code.
 pub fn execute(cli: Cli) -> anyhow::Result<u8> {
     match cli.command {
@@ -173,6 +221,7 @@ pub fn execute(cli: Cli) -> anyhow::Result<u8> {
         Command::Demo(args) => demo(args),
         Command::Synth(args) => synth(args),
         Command::Compare(args) => compare(args),
+        Command::Pairs(args) => pairs(args),
     }
 }
 
@@ -205,6 +254,48 @@ fn compare(args: CompareArgs) -> anyhow::Result<u8> {
     Ok(0)
 }
 
+fn pairs(args: PairsArgs) -> anyhow::Result<u8> {
+    let config = crate::pairs::PairsConfig {
+        run_dir: args.run_dir,
+        out_dir: args.out,
+        select: crate::pairs::select::SelectOptions {
+            seed: args.seed,
+            validation_fraction: args.validation_fraction,
+            include_originals: args.originals,
+            only_failed: args.only_failed,
+            only_wrong: args.only_wrong,
+            balance: args.balance,
+            max_per_image: args.max_per_image,
+            include_placebo: args.placebo,
+        },
+        jobs: args.jobs.unwrap_or_else(n_cores),
+        show_progress: !args.json && std::io::stderr().is_terminal(),
+    };
+    config.check()?;
+    let start = std::time::Instant::now();
+    let s = crate::pairs::build_pairs(&config).context("pairs failed")?;
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(&s)?);
+    } else {
+        print!("{}", crate::pairs::render_text(&s, &config.out_dir));
+        println!(
+            "wrote {}/{{train, validation}}/metadata.jsonl and {} in {:.1} s",
+            config.out_dir.display(),
+            crate::pairs::PAIRS_SUMMARY_FILE,
+            start.elapsed().as_secs_f64()
+        );
+    }
+    if !s.failures.is_empty() {
+        eprintln!(
+            "twinaudit: {} images could not be made and are not in the dataset; see \"failures\" in {}",
+            s.failures.len(),
+            config.out_dir.join(crate::pairs::PAIRS_SUMMARY_FILE).display()
+        );
+        return Ok(2);
+    }
+    Ok(0)
+}
+
 fn synth(args: SynthArgs) -> anyhow::Result<u8> {
     let config = crate::synth::SynthConfig {
         cloth_matches_bowl: args.cloth_matches_bowl,
@@ -212,7 +303,7 @@ fn synth(args: SynthArgs) -> anyhow::Result<u8> {
         cloth_rate: args.cloth_rate,
         size: args.size,
         max_objects: args.max_objects,
-        jobs: std::thread::available_parallelism().map_or(1, |n| n.get()),
+        jobs: n_cores(),
         ..crate::synth::SynthConfig::new(args.out, args.scenes, args.seed)
     };
     let start = std::time::Instant::now();
@@ -272,11 +363,7 @@ fn run(args: RunArgs) -> anyhow::Result<u8> {
         manifest_path: args.model,
         out_dir: args.out,
         seed: args.seed,
-        jobs: args.jobs.unwrap_or_else(|| {
-            std::thread::available_parallelism()
-                .map(|n| n.get())
-                .unwrap_or(1)
-        }),
+        jobs: args.jobs.unwrap_or_else(n_cores),
         save_edits: args.save_edits,
         resume: args.resume,
         confidence: args.confidence,

@@ -151,7 +151,8 @@ def main() -> None:
     ap.add_argument("--batch", type=int, default=64)
     ap.add_argument("--lr", type=float, default=2e-3)
     ap.add_argument("--extra", type=Path, action="append", default=[],
-                    help="extra training pairs (ImageFolder with metadata.jsonl), may repeat")
+                    help="extra training rows from `twinaudit pairs`: its output folder (train/ is used) or a split "
+                         "folder with metadata.jsonl (file_name, question, answer, question_kind); may repeat")
     ap.add_argument("--name", default=NAME)
     args = ap.parse_args()
 
@@ -173,11 +174,12 @@ def main() -> None:
     tr_images, tr_idx, tr_q, tr_a, tr_k = load_split(train_dir)
     extra_note = []
     for extra in args.extra:
-        for split in ("train",):
-            meta = extra / split / "metadata.jsonl"
+        # `twinaudit pairs` output (docs/pairs.md): a split folder, or the dataset folder (its train/).
+        for folder in ([extra] if (extra / "metadata.jsonl").is_file() else [extra / "train"]):
+            meta = folder / "metadata.jsonl"
             rows = [json.loads(l) for l in meta.read_text().splitlines() if l.strip()]
             rows = [r for r in rows if r["answer"] in ANSWERS]
-            imgs = np.stack([np.asarray(Image.open(extra / split / r["file_name"]).convert("RGB")
+            imgs = np.stack([np.asarray(Image.open(folder / r["file_name"]).convert("RGB")
                                         .resize((INPUT_SIZE, INPUT_SIZE), Image.BILINEAR)) for r in rows])
             base = len(tr_images)
             tr_images = np.concatenate([tr_images, imgs])
