@@ -7,7 +7,7 @@ use std::path::PathBuf;
 use anyhow::{bail, Context};
 use clap::{Args, Parser, Subcommand};
 
-use crate::audit::summary::render_text;
+use crate::analysis::render_text;
 use crate::audit::{run_audit, RunConfig};
 use crate::model::check::{check_manifest, describe};
 use crate::model::engine::open_session;
@@ -34,6 +34,23 @@ pub enum Command {
     Demo(DemoArgs),
     /// Generate fruit-stall scenes with exact masks, an edit spec and scenes.jsonl.
     Synth(SynthArgs),
+    /// Write a self-contained HTML report of a finished run (tables, plots, failures gallery).
+    Report(ReportArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct ReportArgs {
+    /// The run folder (run.json, results.jsonl).
+    pub run_dir: PathBuf,
+    /// Where to write the HTML file [default: RUN_DIR/report.html].
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Confidence level of every interval; the summary is recomputed from results.jsonl.
+    #[arg(long, default_value_t = 0.95)]
+    pub confidence: f64,
+    /// Print the report's path and the recomputed summary as JSON.
+    #[arg(long)]
+    pub json: bool,
 }
 
 #[derive(Debug, Args)]
@@ -147,7 +164,42 @@ pub fn execute(cli: Cli) -> anyhow::Result<u8> {
         Command::Inspect(args) => inspect(args),
         Command::Demo(args) => demo(args),
         Command::Synth(args) => synth(args),
+        Command::Report(args) => report(args),
     }
+}
+
+fn check_confidence(confidence: f64) -> anyhow::Result<()> {
+    if !(confidence > 0.0 && confidence < 1.0) {
+        bail!("--confidence must lie strictly between 0 and 1, got {confidence}");
+    }
+    Ok(())
+}
+
+fn report(args: ReportArgs) -> anyhow::Result<u8> {
+    check_confidence(args.confidence)?;
+    let config = crate::report::html::ReportConfig {
+        run_dir: args.run_dir,
+        out_path: args.out,
+        confidence: args.confidence,
+    };
+    let outcome = crate::report::html::write_report(&config).context("report failed")?;
+    if args.json {
+        let value = serde_json::json!({
+            "report": outcome.path,
+            "bytes": outcome.bytes,
+            "gallery_pairs": outcome.n_gallery_pairs,
+            "summary": outcome.summary,
+        });
+        println!("{}", serde_json::to_string_pretty(&value)?);
+    } else {
+        println!(
+            "wrote {} ({:.1} KB, {} gallery pairs with images)",
+            outcome.path.display(),
+            outcome.bytes as f64 / 1024.0,
+            outcome.n_gallery_pairs
+        );
+    }
+    Ok(0)
 }
 
 fn synth(args: SynthArgs) -> anyhow::Result<u8> {
@@ -206,12 +258,7 @@ fn demo(args: DemoArgs) -> anyhow::Result<u8> {
 }
 
 fn run(args: RunArgs) -> anyhow::Result<u8> {
-    if !(args.confidence > 0.0 && args.confidence < 1.0) {
-        bail!(
-            "--confidence must lie strictly between 0 and 1, got {}",
-            args.confidence
-        );
-    }
+    check_confidence(args.confidence)?;
     let config = RunConfig {
         spec_path: args.spec,
         manifest_path: args.model,

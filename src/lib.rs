@@ -2,13 +2,16 @@
 //!
 //! Pipeline: [`spec`] (cases, regions, edits, expectations) → [`render`] (edits on pixels) →
 //! [`model`] (ONNX engine, manifests, pre/post-processing) → [`audit`] (runner, checker) →
-//! [`stats`] for intervals. [`cli`] turns command lines into calls; `main.rs` only maps exit codes.
+//! [`analysis`] (summary.json) → [`report`] (the HTML report); [`stats`] for intervals. [`cli`]
+//! turns command lines into calls; `main.rs` only maps exit codes.
 
+pub mod analysis;
 pub mod audit;
 pub mod cli;
 pub mod imageio;
 pub mod model;
 pub mod render;
+pub mod report;
 pub mod spec;
 pub mod stats;
 pub mod synth;

@@ -70,10 +70,18 @@ pub fn wilson_interval(successes: u64, n: u64, confidence: f64) -> Option<(f64, 
     let centre = p + z2 / (2.0 * n_f);
     let half = z * (p * (1.0 - p) / n_f + z2 / (4.0 * n_f * n_f)).sqrt();
     let denom = 1.0 + z2 / n_f;
-    Some((
-        ((centre - half) / denom).max(0.0),
-        ((centre + half) / denom).min(1.0),
-    ))
+    // At 0 and n the bound is exactly 0 or 1; rounding would leave ±1e-17 that sorts at random.
+    let low = if successes == 0 {
+        0.0
+    } else {
+        ((centre - half) / denom).max(0.0)
+    };
+    let high = if successes == n {
+        1.0
+    } else {
+        ((centre + half) / denom).min(1.0)
+    };
+    Some((low, high))
 }
 
 #[cfg(test)]
