@@ -74,22 +74,39 @@ pub(crate) fn distractor_labels(
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn row(kind: QuestionKind, label: &str, flipped: u64, n: u64) -> LabelRow {
-        LabelRow {
-            question_kind: kind,
-            label: label.into(),
-            flip_rate: Rate::new(flipped, n, 0.95),
-            placebo_flip_rate: None,
-        }
-    }
+    use crate::analysis::testing::{placebo, row};
+    use crate::audit::checker::Verdict::{Flipped, Held};
 
     #[test]
     fn a_well_measured_label_outranks_a_lucky_one() {
-        // 1/1 has Wilson interval [0.2065, 1] at 95%; 70/88 has [0.700, 0.867] (Wilson 1927 formula).
-        let lucky = row(QuestionKind::Count, "tag", 1, 1);
-        let measured = row(QuestionKind::Colour, "cloth", 70, 88);
-        assert!(lucky.flip_rate.value > measured.flip_rate.value);
-        assert!(lucky.flip_rate.low < measured.flip_rate.low);
+        let mut rows = Vec::new();
+        for i in 0..9 {
+            rows.push(row(
+                &format!("c{i}/e"),
+                if i < 7 { Flipped } else { Held },
+                &["cloth"],
+                0.9,
+            ));
+        }
+        rows.push(row("t/e", Flipped, &["tag"], 0.9));
+        for i in 0..5 {
+            rows.push(row(&format!("a{i}/e"), Held, &["apple"], 0.9));
+        }
+        // Two labels in one edit: no single label to blame, so left out.
+        rows.push(row("m/e", Flipped, &["cloth", "apple"], 0.9));
+        let controls_owned: Vec<_> = rows[..2].iter().map(|r| placebo(r, Held)).collect();
+        let refs: Vec<&PairRecord> = rows.iter().collect();
+        let controls: Vec<_> = rows[..2].iter().zip(&controls_owned).collect();
+        let ranked = distractor_labels(&refs, &controls, 0.95);
+        let order: Vec<(&str, u64, u64)> = ranked
+            .iter()
+            .map(|r| (r.label.as_str(), r.flip_rate.count, r.flip_rate.n))
+            .collect();
+        // 1/1 has the higher rate (100%) but Wilson [20.7%, 100%]; 7/9 has [45.3%, 93.7%]
+        // (Wilson 1927 score interval, 95%; values by the formula in stats::wilson_interval).
+        assert_eq!(order, [("cloth", 7, 9), ("tag", 1, 1), ("apple", 0, 5)]);
+        let p = ranked[0].placebo_flip_rate.unwrap();
+        assert_eq!((p.count, p.n), (0, 2));
+        assert_eq!(ranked[1].placebo_flip_rate, None);
     }
 }

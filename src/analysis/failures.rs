@@ -95,3 +95,48 @@ pub(crate) fn confident_failures(all: &[PairRecord]) -> ConfidentFailures {
         did_not_move: top(all, Verdict::DidNotMove),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::testing::{placebo, row};
+    use crate::audit::checker::Verdict::{DidNotMove, Flipped, Held};
+
+    #[test]
+    fn ranked_by_after_probability_with_file_line_numbers() {
+        let a = row("a/e", Flipped, &["cloth"], 0.7);
+        let rows = vec![
+            a.clone(),
+            placebo(&a, Flipped),
+            row("b/e", Flipped, &["cloth"], 0.95),
+            row("c/e", Held, &["cloth"], 0.99),
+            row("d/e", DidNotMove, &["bowl"], 0.6),
+            row("e/e", Flipped, &["tag"], 0.95),
+        ];
+        let cf = confident_failures(&rows);
+        let flipped: Vec<(&str, usize)> = cf
+            .flipped
+            .iter()
+            .map(|e| (e.pair_id.as_str(), e.results_line))
+            .collect();
+        // Ties broken by pair id; the placebo (line 2) never listed but still counted as a line.
+        assert_eq!(flipped, [("b/e", 3), ("e/e", 6), ("a/e", 1)]);
+        assert_eq!(cf.did_not_move.len(), 1);
+        assert_eq!(cf.did_not_move[0].results_line, 5);
+        assert_eq!(cf.did_not_move[0].after.answer, "red");
+        assert_eq!(cf.top_n, TOP_N_FAILURES);
+    }
+
+    #[test]
+    fn lists_stop_at_top_n() {
+        let rows: Vec<_> = (0..TOP_N_FAILURES + 5)
+            .map(|i| row(&format!("p{i:03}/e"), Flipped, &["cloth"], i as f32 / 100.0))
+            .collect();
+        let cf = confident_failures(&rows);
+        assert_eq!(cf.flipped.len(), TOP_N_FAILURES);
+        assert_eq!(
+            cf.flipped[0].pair_id,
+            format!("p{:03}/e", TOP_N_FAILURES + 4)
+        );
+    }
+}

@@ -45,3 +45,115 @@ impl Tally {
         Rate::new(self.failed, self.judged, confidence)
     }
 }
+
+#[cfg(test)]
+pub(crate) mod testing {
+    //! Hand-made results rows for the analysis unit tests.
+
+    use crate::audit::checker::Verdict;
+    use crate::audit::results::{PairRecord, RegionRef, Status, RESULTS_FORMAT_VERSION};
+    use crate::model::Prediction;
+    use crate::spec::{Expectation, QuestionKind};
+
+    fn prediction(answer: &str, probability: f32) -> Prediction {
+        Prediction {
+            answer: answer.into(),
+            probability,
+            top_k: Vec::new(),
+        }
+    }
+
+    /// A judged row: `verdict` decides the relation; `labels` are distractors unless the verdict
+    /// belongs to a change pair.
+    pub fn row(
+        pair_id: &str,
+        verdict: Verdict,
+        labels: &[&str],
+        after_probability: f32,
+    ) -> PairRecord {
+        let change = matches!(
+            verdict,
+            Verdict::MovedToExpected | Verdict::MovedElsewhere | Verdict::DidNotMove
+        );
+        let role = if change { "target" } else { "distractor" };
+        PairRecord {
+            format_version: RESULTS_FORMAT_VERSION,
+            pair_id: pair_id.into(),
+            case: pair_id.split('/').next().unwrap_or(pair_id).into(),
+            edit: "e".into(),
+            spec: "spec.json".into(),
+            image: "i.png".into(),
+            question: "What colour is the bowl?".into(),
+            question_kind: QuestionKind::Colour,
+            operation: "erase".into(),
+            method: Some("telea".into()),
+            role: role.into(),
+            regions: labels
+                .iter()
+                .enumerate()
+                .map(|(i, l)| RegionRef {
+                    id: format!("r{i}"),
+                    label: (*l).into(),
+                    role: role.into(),
+                })
+                .collect(),
+            n_case_regions: Some(5),
+            area_fraction: Some(0.03),
+            seed: 1,
+            expectation: if change {
+                Expectation::Change
+            } else {
+                Expectation::Same
+            },
+            expectation_derived: true,
+            relation: if change { "change" } else { "same" }.into(),
+            truth: Some("red".into()),
+            status: Status::Ok,
+            before: Some(prediction("red", 0.9)),
+            before_correct: Some(true),
+            after: Some(prediction(
+                if verdict.passed() == !change {
+                    "red"
+                } else {
+                    "blue"
+                },
+                after_probability,
+            )),
+            verdict: Some(verdict),
+            passed: Some(verdict.passed()),
+            error: None,
+            warnings: Vec::new(),
+            edited_image: None,
+            placebo_of: None,
+            added_regions: Vec::new(),
+        }
+    }
+
+    /// The placebo control of `real`, with its own verdict (`held` or `flipped`).
+    pub fn placebo(real: &PairRecord, verdict: Verdict) -> PairRecord {
+        PairRecord {
+            pair_id: format!("{}~placebo", real.pair_id),
+            placebo_of: Some(real.pair_id.clone()),
+            expectation: Expectation::Same,
+            expectation_derived: false,
+            relation: "same".into(),
+            status: Status::Ok,
+            error: None,
+            verdict: Some(verdict),
+            passed: Some(verdict.passed()),
+            ..real.clone()
+        }
+    }
+
+    /// An error row.
+    pub fn error_row(pair_id: &str) -> PairRecord {
+        PairRecord {
+            status: Status::Error,
+            after: None,
+            verdict: None,
+            passed: None,
+            error: Some("cannot read the image".into()),
+            ..row(pair_id, Verdict::Held, &["cloth"], 0.5)
+        }
+    }
+}

@@ -146,3 +146,88 @@ pub(crate) fn placebo_corrected(
             .collect(),
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::testing::{error_row, placebo, row};
+    use crate::audit::checker::Verdict::{Flipped, Held};
+
+    /// Real and placebo rows whose paired cells are (a, b, c, d): a both failed, b only the real
+    /// edit, c only the placebo, d neither.
+    fn rows_with_cells(a: usize, b: usize, c: usize, d: usize) -> Vec<PairRecord> {
+        let mut rows = Vec::new();
+        let cells = [
+            (a, Flipped, Flipped),
+            (b, Flipped, Held),
+            (c, Held, Flipped),
+            (d, Held, Held),
+        ];
+        for (cell, (n, real_v, placebo_v)) in cells.into_iter().enumerate() {
+            for i in 0..n {
+                let real = row(&format!("c{cell}-{i}/e"), real_v, &["cloth"], 0.9);
+                rows.push(placebo(&real, placebo_v));
+                rows.push(real);
+            }
+        }
+        rows
+    }
+
+    /// Newcombe R.G. (1998), Statistics in Medicine 17:2635-2650, method 10, worked example
+    /// (a, b, c, d) = (20, 12, 2, 16): difference 0.2, 95% interval 0.0562 to 0.3292
+    /// (shared/REFERENCES.md), reached here through real and placebo rows.
+    #[test]
+    fn corrected_rate_is_newcombes_paired_difference() {
+        let mut rows = rows_with_cells(20, 12, 2, 16);
+        // Pairs where either side was not judged stay out of the paired table.
+        let real = row("z/e", Flipped, &["cloth"], 0.9);
+        rows.push(PairRecord {
+            verdict: None,
+            passed: None,
+            status: Status::Error,
+            ..placebo(&real, Held)
+        });
+        rows.push(real);
+        let broken = error_row("x/e");
+        rows.push(placebo(&broken, Held));
+        rows.push(broken);
+        let c = placebo_corrected(&controls(&rows), 0.95).unwrap();
+        let o = &c.overall;
+        assert_eq!(
+            o.counts,
+            PairedCounts {
+                a: 20,
+                b: 12,
+                c: 2,
+                d: 16
+            }
+        );
+        assert_eq!((o.real_failure_rate.count, o.real_failure_rate.n), (32, 50));
+        assert_eq!((o.placebo_flip_rate.count, o.placebo_flip_rate.n), (22, 50));
+        let d = o.difference.unwrap();
+        assert!((d.value - 0.2).abs() < 1e-12, "{d:?}");
+        assert!((d.low - 0.0562).abs() < 5e-5, "{d:?}");
+        assert!((d.high - 0.3292).abs() < 5e-5, "{d:?}");
+        // One group (erase, distractor, colour, same) holds every pair.
+        assert_eq!(c.groups.len(), 1);
+        assert_eq!(c.groups[0].corrected, *o);
+        let totals = placebo_totals(
+            &rows
+                .iter()
+                .filter(|r| r.placebo_of.is_some())
+                .collect::<Vec<_>>(),
+            0.95,
+        )
+        .unwrap();
+        assert_eq!(
+            (totals.n_pairs, totals.n_judged, totals.n_errors),
+            (52, 51, 1)
+        );
+    }
+
+    #[test]
+    fn no_placebos_no_correction() {
+        let rows = vec![row("a/e", Held, &["cloth"], 0.9)];
+        assert_eq!(placebo_corrected(&controls(&rows), 0.95), None);
+    }
+}

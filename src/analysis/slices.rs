@@ -185,3 +185,101 @@ pub(crate) fn slices(
         })
         .collect()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::testing::{error_row, placebo, row};
+    use crate::audit::checker::Verdict::{DidNotMove, Flipped, Held, MovedToExpected};
+
+    fn bin_name(dimension: &str, r: &PairRecord) -> Vec<String> {
+        bins_of(dimension, r).into_iter().map(|b| b.name).collect()
+    }
+
+    #[test]
+    fn bin_edges_are_inclusive_below_and_exclusive_above() {
+        let mut r = row("a/e", Held, &["cloth"], 0.9);
+        for (area, want) in [
+            (0.0099, "<1%"),
+            (0.01, "1-2%"),
+            (0.049, "2-5%"),
+            (0.05, "5-10%"),
+            (0.1999, "10-20%"),
+            (0.2, ">=20%"),
+            (1.0, ">=20%"),
+        ] {
+            r.area_fraction = Some(area);
+            assert_eq!(bin_name("area_fraction", &r), [want], "{area}");
+        }
+        r.area_fraction = None;
+        assert_eq!(bin_name("area_fraction", &r), ["unknown"]);
+        for (n, want) in [
+            (1, "1-3"),
+            (3, "1-3"),
+            (4, "4-6"),
+            (9, "7-9"),
+            (10, "10+"),
+            (40, "10+"),
+        ] {
+            r.n_case_regions = Some(n);
+            assert_eq!(bin_name("n_case_regions", &r), [want], "{n}");
+        }
+        for (q, want) in [
+            ("Bowl colour?", "1-4"),
+            ("What colour is the bowl?", "5-6"),
+            ("How many  apples\tare there on the table?", "7-8"),
+        ] {
+            r.question = q.into();
+            assert_eq!(bin_name("question_words", &r), [want], "{q:?}");
+        }
+        r.method = None;
+        assert_eq!(bin_name("method", &r), ["unknown"]);
+    }
+
+    #[test]
+    fn rows_count_each_pair_in_its_bins_and_placebos_with_their_pair() {
+        let mut small = row("a/e", Flipped, &["cloth", "apple"], 0.9);
+        small.area_fraction = Some(0.005);
+        let mut large = row("b/e", Held, &["cloth"], 0.9);
+        large.area_fraction = Some(0.3);
+        let target = row("c/e", DidNotMove, &["bowl"], 0.9);
+        let moved = row("d/e", MovedToExpected, &["bowl"], 0.9);
+        let broken = error_row("f/e");
+        let pl = placebo(&small, Flipped);
+        let records = [&small, &large, &target, &moved, &broken];
+        let rows = slices(&records, &[(&small, &pl)], 0.95);
+        let find = |dim: &str, bin: &str, rel: &str| {
+            rows.iter()
+                .find(|r| r.dimension == dim && r.bin == bin && r.relation == rel)
+                .unwrap_or_else(|| panic!("no {dim} {bin} {rel}"))
+        };
+        let lt1 = find("area_fraction", "<1%", "same");
+        assert_eq!((lt1.failure_rate.count, lt1.failure_rate.n), (1, 1));
+        let p = lt1.placebo_flip_rate.unwrap();
+        assert_eq!((p.count, p.n), (1, 1));
+        assert_eq!(
+            find("area_fraction", ">=20%", "same").placebo_flip_rate,
+            None
+        );
+        let bowl = find("label", "bowl", "change");
+        assert_eq!((bowl.failure_rate.count, bowl.failure_rate.n), (1, 2));
+        // The two-label pair counts under both labels; the error row is counted, not judged.
+        let cloth = find("label", "cloth", "same");
+        assert_eq!(
+            (cloth.n_pairs, cloth.n_errors, cloth.failure_rate.n),
+            (3, 1, 2)
+        );
+        assert_eq!(find("label", "apple", "same").n_pairs, 1);
+        // Order: dimensions as listed, bins ascending.
+        let dims: Vec<&str> = rows.iter().map(|r| r.dimension.as_str()).collect();
+        let mut sorted = dims.clone();
+        sorted.sort_by_key(|d| DIMENSIONS.iter().position(|x| x == d));
+        assert_eq!(dims, sorted);
+        let area: Vec<&str> = rows
+            .iter()
+            .filter(|r| r.dimension == "area_fraction")
+            .map(|r| r.bin.as_str())
+            .collect();
+        assert_eq!(area, ["<1%", "2-5%", "2-5%", ">=20%"]);
+    }
+}

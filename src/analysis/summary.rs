@@ -234,3 +234,45 @@ fn groups(
         })
         .collect()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::testing::{error_row, row};
+    use crate::audit::checker::Verdict::{DidNotMove, Flipped, Held};
+
+    /// A format 1 summary.json (written by twinaudit before format 2, trimmed to one row per
+    /// list) still reads; the format 2 fields come back empty.
+    #[test]
+    fn format_1_files_still_read() {
+        let v1 = r#"{"format_version": 1, "confidence": 0.95, "n_pairs": 562, "n_judged": 562, "n_errors": 0, "failure_rate": {"count": 125, "n": 562, "value": 0.22241992882562278, "low": 0.18998688074315126, "high": 0.25862192100449927, "confidence": 0.95}, "original_accuracy": [{"question_kind": "count", "accuracy": {"count": 34, "n": 60, "value": 0.5666666666666667, "low": 0.4410343877612557, "high": 0.6842760319531322, "confidence": 0.95}}], "by_kind_and_role": [{"question_kind": "count", "role": "distractor", "failure_rate": {"count": 13, "n": 192, "value": 0.06770833333333333, "low": 0.03999268563113286, "high": 0.11238290940574829, "confidence": 0.95}}], "distractor_labels": [{"question_kind": "colour", "label": "cloth", "flip_rate": {"count": 70, "n": 88, "value": 0.7954545454545454, "low": 0.6996803607394828, "high": 0.8665127362312627, "confidence": 0.95}}], "groups": [{"operation": "cover", "role": "distractor", "question_kind": "count", "relation": "same", "n_pairs": 50, "n_errors": 0, "verdicts": {"flipped": 11, "held": 39}, "failure_rate": {"count": 11, "n": 50, "value": 0.22, "low": 0.1275391597021442, "high": 0.3524154958125367, "confidence": 0.95}, "placebo_flip_rate": null}], "placebo": null}"#;
+        let s: Summary = serde_json::from_str(v1).unwrap();
+        assert_eq!(s.format_version, 1);
+        assert_eq!(s.distractor_labels[0].label, "cloth");
+        assert_eq!(s.distractor_labels[0].placebo_flip_rate, None);
+        assert!(s.slices.is_empty() && s.confident_failures.flipped.is_empty());
+        assert_eq!(s.placebo_corrected, None);
+    }
+
+    #[test]
+    fn counts_add_up_and_the_written_file_reads_back() {
+        let rows = vec![
+            row("a/e", Flipped, &["cloth"], 0.9),
+            row("b/e", Held, &["cloth"], 0.9),
+            row("c/e", DidNotMove, &["bowl"], 0.8),
+            error_row("d/e"),
+        ];
+        let s = summarise(&rows, 0.9);
+        assert_eq!(s.format_version, SUMMARY_FORMAT_VERSION);
+        assert_eq!((s.n_pairs, s.n_judged, s.n_errors), (4, 3, 1));
+        assert_eq!((s.failure_rate.count, s.failure_rate.n), (2, 3));
+        assert_eq!(s.confident_failures.flipped[0].results_line, 1);
+        assert_eq!(s.confident_failures.did_not_move[0].results_line, 3);
+        assert!(s.slices.iter().all(|r| r.failure_rate.confidence == 0.9));
+        // serde_json may round a float's last bit on the way back, so compare what is not a float.
+        let back: Summary = serde_json::from_str(&serde_json::to_string(&s).unwrap()).unwrap();
+        assert_eq!(back.confident_failures, s.confident_failures);
+        assert_eq!(back.slices.len(), s.slices.len());
+        assert_eq!(back.groups[0].verdicts, s.groups[0].verdicts);
+    }
+}
