@@ -112,7 +112,7 @@ pub(crate) mod testing {
             before: Some(prediction("red", 0.9)),
             before_correct: Some(true),
             after: Some(prediction(
-                if verdict.passed() == !change {
+                if verdict.passed() != change {
                     "red"
                 } else {
                     "blue"
