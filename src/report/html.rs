@@ -155,6 +155,7 @@ const STYLE: &str = r#"
 * { box-sizing: border-box; }
 body { margin: 0; color: var(--ink); background: #fff; font: 15px/1.45 "DejaVu Sans", "Liberation Sans", Arial, sans-serif; }
 main { max-width: 1180px; margin: 0 auto; padding: 24px 28px 48px; }
+section { overflow-x: auto; }
 h1 { font-size: 26px; margin: 0 0 4px; }
 h2 { font-size: 20px; margin: 36px 0 8px; padding-bottom: 4px; border-bottom: 2px solid var(--accent); }
 h3 { font-size: 16px; margin: 22px 0 6px; }
@@ -604,25 +605,19 @@ fn placebo_section(s: &Summary) -> String {
     out.push_str(&format!("<p>Each placebo repeats one real edit on free background. Over pairs where both were judged, the corrected rate is the real failure rate minus the placebo flip rate on the same pairs, with Newcombe's interval for paired proportions (method 10, {:.0}%) and McNemar's exact p for the discordant pairs.</p>", 100.0 * s.confidence));
     out.push_str("<table id=\"placebo-table\"><caption>Real failure rate against placebo flip rate on the same pairs</caption>");
     out.push_str(&th_row(&[
-        "operation",
-        "edited role",
-        "question kind",
-        "expectation",
+        "operation · edited role · question kind · expectation",
         "pairs (both judged)",
         "real failure rate [interval]",
         "placebo flip rate [interval]",
         "corrected: difference [interval] (percentage points)",
-        "only real failed / only placebo flipped",
+        "discordant: only real failed / only placebo flipped (pairs)",
         "McNemar exact p",
     ]));
     out.push_str("<tbody>");
-    let row = |cells: [String; 4], r: &crate::analysis::placebo::CorrectedRate| {
+    let row = |group: &str, r: &crate::analysis::placebo::CorrectedRate| {
         format!(
-            "<tr>{}{}{}{}{}{}{}{}{}{}</tr>",
-            cells[0],
-            cells[1],
-            cells[2],
-            cells[3],
+            "<tr>{}{}{}{}{}{}{}</tr>",
+            td(group),
             td_num(&r.n_pairs.to_string()),
             rate_cell(&r.real_failure_rate),
             rate_cell(&r.placebo_flip_rate),
@@ -631,26 +626,31 @@ fn placebo_section(s: &Summary) -> String {
                     .map_or_else(|| "n/a (no pairs)".into(), |d| d.describe())
             ),
             td_num(&format!("{} / {}", r.counts.b, r.counts.c)),
-            td_num(&format!("{:.3}", r.mcnemar_exact_p)),
+            td_num(&p_value(r.mcnemar_exact_p)),
         )
     };
-    out.push_str(&row(
-        [td("all"), td("all"), td("all"), td("all")],
-        &c.overall,
-    ));
+    out.push_str(&row("all pairs", &c.overall));
     for g in &c.groups {
-        out.push_str(&row(
-            [
-                td(&g.operation),
-                td(&g.role),
-                td(g.question_kind.as_str()),
-                td(&g.relation),
-            ],
-            &g.corrected,
-        ));
+        let group = format!(
+            "{} · {} · {} · {}",
+            g.operation,
+            g.role,
+            g.question_kind.as_str(),
+            g.relation
+        );
+        out.push_str(&row(&group, &g.corrected));
     }
     out.push_str("</tbody></table></section>\n");
     out
+}
+
+/// Three decimals, or two significant digits below 0.001 (`"3.7e-5"`).
+fn p_value(p: f64) -> String {
+    if p >= 0.001 {
+        format!("{p:.3}")
+    } else {
+        format!("{p:.1e}")
+    }
 }
 
 fn percent(p: f32) -> String {
@@ -727,12 +727,13 @@ fn failure_row(rank: usize, e: &FailureEntry, figure: Option<usize>) -> String {
     )
 }
 
-/// A thumbnail no larger than [`THUMBNAIL_PX`] with the edited shape's bounding box drawn as a
-/// dashed frame (a shape, so it reads without colour).
-fn thumbnail(image: &RgbImage, bbox: [u32; 4]) -> Option<String> {
+/// A thumbnail no larger than [`THUMBNAIL_PX`] (smaller images keep their size; the page scales
+/// them up) with the edited shape's bounding box drawn as a dashed frame (a shape, so it reads
+/// without colour). Returns the PNG as base64 and the display size.
+fn thumbnail(image: &RgbImage, bbox: [u32; 4]) -> Option<(String, u32, u32)> {
     let (w, h) = image.dimensions();
-    let scale = f64::from(THUMBNAIL_PX) / f64::from(w.max(h).max(1));
-    let scale = scale.min(1.0);
+    let display = f64::from(THUMBNAIL_PX) / f64::from(w.max(h).max(1));
+    let scale = display.min(1.0);
     let (tw, th) = (
         ((f64::from(w) * scale).round() as u32).max(1),
         ((f64::from(h) * scale).round() as u32).max(1),
@@ -763,7 +764,8 @@ fn thumbnail(image: &RgbImage, bbox: [u32; 4]) -> Option<String> {
     small
         .write_to(&mut Cursor::new(&mut png), image::ImageFormat::Png)
         .ok()?;
-    Some(base64(&png))
+    let shown = |v: u32| ((f64::from(v) * display).round() as u32).max(1);
+    Some((base64(&png), shown(w), shown(h)))
 }
 
 /// The gallery's HTML, the figure number of each shown pair id, and how many pairs have images.
@@ -804,11 +806,11 @@ fn gallery(run: &mut RunFolder, s: &Summary) -> (String, BTreeMap<String, usize>
                 _ => Err("the thumbnails could not be encoded".to_string()),
             }
         }) {
-            Ok((original, edited, saved)) => {
+            Ok(((original, w, h), (edited, _, _), saved)) => {
                 n_images += 1;
                 let alt = |which: &str| escape(&format!("{which} image of pair {}", e.pair_id));
                 format!(
-                    "<div class=\"pair\"><div><img alt=\"{}\" src=\"data:image/png;base64,{original}\">original</div><div><img alt=\"{}\" src=\"data:image/png;base64,{edited}\">edited ({})</div></div>",
+                    "<div class=\"pair\"><div><img width=\"{w}\" height=\"{h}\" alt=\"{}\" src=\"data:image/png;base64,{original}\">original</div><div><img width=\"{w}\" height=\"{h}\" alt=\"{}\" src=\"data:image/png;base64,{edited}\">edited ({})</div></div>",
                     alt("original"),
                     alt("edited"),
                     if saved { "saved edit" } else { "re-rendered from the seed" }

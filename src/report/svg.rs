@@ -64,6 +64,19 @@ const PLOT_W: f64 = 360.0;
 const ROW_H: f64 = 24.0;
 const TOP: f64 = 34.0;
 
+/// Characters of a row label that fit left of the plot; longer labels end in "…" (the tables
+/// beside every chart carry the full text).
+const LABEL_CHARS: usize = 30;
+
+fn clip(label: &str) -> String {
+    if label.chars().count() <= LABEL_CHARS {
+        label.to_string()
+    } else {
+        let head: String = label.chars().take(LABEL_CHARS - 1).collect();
+        format!("{head}…")
+    }
+}
+
 /// The chart as an `<svg>` element sized in CSS pixels.
 pub fn interval_chart(chart: &IntervalChart) -> String {
     let n = chart.rows.len() as f64;
@@ -101,7 +114,7 @@ pub fn interval_chart(chart: &IntervalChart) -> String {
             r#"<text class="label" x="{:.1}" y="{:.1}" text-anchor="end">{}</text>"#,
             LABEL_W - 8.0,
             y + 4.0,
-            escape(&row.label)
+            escape(&clip(&row.label))
         ));
         if let (Some(v), Some(lo), Some(hi)) = (row.rate.value, row.rate.low, row.rate.high) {
             let (x0, x1) = (x_of(lo), x_of(hi));
@@ -173,5 +186,13 @@ mod tests {
         assert!(!text.contains("<b>"));
         assert!(!text.contains("class=\"whisker\""));
         assert!(text.contains("n/a (0/0)"));
+    }
+
+    #[test]
+    fn long_labels_are_clipped_before_escaping() {
+        let long = format!("{}<tail>", "x".repeat(40));
+        let text = interval_chart(&chart(&long, Rate::new(1, 2, 0.95)));
+        assert!(text.contains(&format!("{}…</text>", "x".repeat(LABEL_CHARS - 1))));
+        assert!(!text.contains("tail"));
     }
 }
