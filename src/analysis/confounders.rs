@@ -27,8 +27,9 @@ pub struct LabelRow {
     pub placebo_flip_rate: Option<Rate>,
 }
 
-/// The single label of a distractor-only pair, `None` for other pairs.
-fn sole_distractor_label(r: &PairRecord) -> Option<&str> {
+/// The single label of a distractor-only pair, `None` for other pairs: the pairs the ranking
+/// counts.
+pub fn sole_distractor_label(r: &PairRecord) -> Option<&str> {
     let first = r.regions.first()?;
     (r.role == "distractor" && r.regions.iter().all(|g| g.label == first.label))
         .then_some(first.label.as_str())

@@ -130,8 +130,14 @@ fn bins_of(dimension: &str, r: &PairRecord) -> Vec<Bin> {
             1.0,
         )],
         "method" => vec![r.method.as_deref().map_or_else(Bin::unknown, Bin::named)],
-        _ => unreachable!("dimension {dimension} is not in DIMENSIONS"),
+        _ => Vec::new(), // not a dimension: in no bin
     }
+}
+
+/// The names of the bins a real pair falls in along `dimension` (one of [`DIMENSIONS`]; several
+/// only for `label`).
+pub fn bin_names(dimension: &str, r: &PairRecord) -> Vec<String> {
+    bins_of(dimension, r).into_iter().map(|b| b.name).collect()
 }
 
 type SliceKey = (usize, BinOrder, String);
@@ -192,10 +198,6 @@ mod tests {
     use crate::analysis::testing::{error_row, placebo, row};
     use crate::audit::checker::Verdict::{DidNotMove, Flipped, Held, MovedToExpected};
 
-    fn bin_name(dimension: &str, r: &PairRecord) -> Vec<String> {
-        bins_of(dimension, r).into_iter().map(|b| b.name).collect()
-    }
-
     #[test]
     fn bin_edges_are_inclusive_below_and_exclusive_above() {
         let mut r = row("a/e", Held, &["cloth"], 0.9);
@@ -209,10 +211,10 @@ mod tests {
             (1.0, ">=20%"),
         ] {
             r.area_fraction = Some(area);
-            assert_eq!(bin_name("area_fraction", &r), [want], "{area}");
+            assert_eq!(bin_names("area_fraction", &r), [want], "{area}");
         }
         r.area_fraction = None;
-        assert_eq!(bin_name("area_fraction", &r), ["unknown"]);
+        assert_eq!(bin_names("area_fraction", &r), ["unknown"]);
         for (n, want) in [
             (1, "1-3"),
             (3, "1-3"),
@@ -222,7 +224,7 @@ mod tests {
             (40, "10+"),
         ] {
             r.n_case_regions = Some(n);
-            assert_eq!(bin_name("n_case_regions", &r), [want], "{n}");
+            assert_eq!(bin_names("n_case_regions", &r), [want], "{n}");
         }
         for (q, want) in [
             ("Bowl colour?", "1-4"),
@@ -230,10 +232,10 @@ mod tests {
             ("How many  apples\tare there on the table?", "7-8"),
         ] {
             r.question = q.into();
-            assert_eq!(bin_name("question_words", &r), [want], "{q:?}");
+            assert_eq!(bin_names("question_words", &r), [want], "{q:?}");
         }
         r.method = None;
-        assert_eq!(bin_name("method", &r), ["unknown"]);
+        assert_eq!(bin_names("method", &r), ["unknown"]);
     }
 
     #[test]

@@ -14,11 +14,13 @@ use std::path::{Path, PathBuf};
 use image::{imageops, Rgb, RgbImage};
 
 use super::svg::{interval_chart, IntervalChart, IntervalRow, Marker};
+use crate::analysis::confounders::sole_distractor_label;
 use crate::analysis::failures::FailureEntry;
-use crate::analysis::slices::DIMENSIONS;
-use crate::analysis::summary::{group_key, GroupKey};
+use crate::analysis::slices::{bin_names, DIMENSIONS};
+use crate::analysis::summary::group_key;
 use crate::analysis::{shortcut_findings, summarise, Summary};
 use crate::audit::replay::{ReplayError, RunFolder};
+use crate::audit::results::PairRecord;
 use crate::stats::Rate;
 
 /// File name of the report inside the run folder when `--out` is not given.
@@ -130,9 +132,9 @@ pub fn render_report(run: &mut RunFolder, s: &Summary) -> (String, usize) {
     body.push_str(CAUTION);
     body.push_str(&overview(s));
     body.push_str(&summary_table(run, s));
-    body.push_str(&confounders(s));
-    body.push_str(&area_slices(s));
-    body.push_str(&other_slices(s));
+    body.push_str(&confounders(run, s));
+    body.push_str(&area_slices(run, s));
+    body.push_str(&other_slices(run, s));
     body.push_str(&placebo_section(s));
     let (gallery_html, shown, n_gallery) = gallery(run, s);
     body.push_str(&failure_tables(s, &shown));
@@ -380,18 +382,14 @@ fn overview(s: &Summary) -> String {
     out
 }
 
-/// `(line, pair id)` of failed real pairs per group, in file order.
-fn failed_lines(run: &RunFolder) -> BTreeMap<GroupKey, Vec<(usize, String)>> {
-    let mut out: BTreeMap<GroupKey, Vec<(usize, String)>> = BTreeMap::new();
-    for (i, r) in run.records.iter().enumerate() {
-        let failed = r.verdict.is_some_and(|v| !v.passed()) || r.verdict.is_none();
-        if r.placebo_of.is_none() && failed {
-            out.entry(group_key(r))
-                .or_default()
-                .push((i + 1, r.pair_id.clone()));
-        }
-    }
-    out
+/// `(line, pair id)` of the failed or unjudged real pairs that `belongs` accepts, in file order.
+fn failed_lines(run: &RunFolder, belongs: impl Fn(&PairRecord) -> bool) -> Vec<(usize, String)> {
+    run.records
+        .iter()
+        .enumerate()
+        .filter(|(_, r)| r.placebo_of.is_none() && r.passed != Some(true) && belongs(r))
+        .map(|(i, r)| (i + 1, r.pair_id.clone()))
+        .collect()
 }
 
 fn lines_details(lines: &[(usize, String)]) -> String {
@@ -405,20 +403,20 @@ fn lines_details(lines: &[(usize, String)]) -> String {
         .collect();
     let more = if lines.len() > LINES_PER_ROW {
         format!(
-            "<li>and {} more (filter results.jsonl by this row's operation, role, question_kind and relation)</li>",
+            "<li>and {} more (filter results.jsonl by this row's fields)</li>",
             lines.len() - LINES_PER_ROW
         )
     } else {
         String::new()
     };
     format!(
-        "<td><details><summary>{} pairs</summary><ul>{items}{more}</ul></details></td>",
-        lines.len()
+        "<td><details><summary>{} {}</summary><ul>{items}{more}</ul></details></td>",
+        lines.len(),
+        if lines.len() == 1 { "pair" } else { "pairs" }
     )
 }
 
 fn summary_table(run: &RunFolder, s: &Summary) -> String {
-    let lines = failed_lines(run);
     let mut out = String::from("<section id=\"summary\"><h2>Results by operation, role and question</h2><p>A <em>same</em> row fails when the answer flipped; a <em>change</em> row fails when the answer did not reach the expected one. Each row lists its failed or unjudged pairs by results.jsonl line.</p>");
     out.push_str("<table id=\"summary-table\"><caption>One row per operation × edited role × question kind × expectation</caption>");
     out.push_str(&th_row(&headers(
@@ -456,14 +454,14 @@ fn summary_table(run: &RunFolder, s: &Summary) -> String {
             td(&verdicts.join(", ")),
             rate_cell(&g.failure_rate),
             placebo_cell(s, g.placebo_flip_rate.as_ref()),
-            lines_details(lines.get(&key).map_or(&[][..], |v| &v[..])),
+            lines_details(&failed_lines(run, |r| group_key(r) == key)),
         ));
     }
     out.push_str("</tbody></table></section>\n");
     out
 }
 
-fn confounders(s: &Summary) -> String {
+fn confounders(run: &RunFolder, s: &Summary) -> String {
     let mut out = String::from("<section id=\"confounders\"><h2>Confounder ranking</h2><p>Distractor labels ordered by how often editing them moved an answer that must hold (pairs whose edited regions are all distractors of one label). Ranked by the lower end of the interval, so a label seen in few pairs does not outrank a well-measured one. A label at the top is likely what the model reads instead of the asked object.</p>");
     if s.distractor_labels.is_empty() {
         out.push_str("<p>No distractor-only edits were judged in this run.</p></section>\n");
@@ -496,24 +494,29 @@ fn confounders(s: &Summary) -> String {
             "distractor label",
             "flip rate [interval] (flipped/judged)",
             PLACEBO_HEADER,
+            "flipped or unjudged pairs",
         ],
     )));
     out.push_str("<tbody>");
     for (i, l) in s.distractor_labels.iter().enumerate() {
         out.push_str(&format!(
-            "<tr>{}{}{}{}{}</tr>",
+            "<tr>{}{}{}{}{}{}</tr>",
             td_num(&(i + 1).to_string()),
             td(l.question_kind.as_str()),
             td(&l.label),
             rate_cell(&l.flip_rate),
             placebo_cell(s, l.placebo_flip_rate.as_ref()),
+            lines_details(&failed_lines(run, |r| {
+                r.question_kind == l.question_kind
+                    && sole_distractor_label(r) == Some(l.label.as_str())
+            })),
         ));
     }
     out.push_str("</tbody></table></section>\n");
     out
 }
 
-fn slice_table(s: &Summary, dimension: &str, id: &str) -> String {
+fn slice_table(run: &RunFolder, s: &Summary, dimension: &str, id: &str) -> String {
     let mut out = format!("<table id=\"{id}\">");
     out.push_str(&th_row(&headers(
         s,
@@ -524,25 +527,29 @@ fn slice_table(s: &Summary, dimension: &str, id: &str) -> String {
             "errors",
             "failure rate [interval] (failed/judged)",
             PLACEBO_HEADER,
+            "failed or unjudged pairs",
         ],
     )));
     out.push_str("<tbody>");
     for r in s.slices.iter().filter(|r| r.dimension == dimension) {
         out.push_str(&format!(
-            "<tr>{}{}{}{}{}{}</tr>",
+            "<tr>{}{}{}{}{}{}{}</tr>",
             td(&r.bin),
             td(&format!("{} ({})", r.relation, relation_words(&r.relation))),
             td_num(&r.n_pairs.to_string()),
             td_num(&r.n_errors.to_string()),
             rate_cell(&r.failure_rate),
             placebo_cell(s, r.placebo_flip_rate.as_ref()),
+            lines_details(&failed_lines(run, |p| {
+                p.relation == r.relation && bin_names(dimension, p).contains(&r.bin)
+            })),
         ));
     }
     out.push_str("</tbody></table>");
     out
 }
 
-fn area_slices(s: &Summary) -> String {
+fn area_slices(run: &RunFolder, s: &Summary) -> String {
     let mut out = String::from("<section id=\"area\"><h2>Failure rate by edited area</h2><p>Area is the share of the image the edit could change (after dilation). Large fills leave more artifacts; a rate that climbs with area on <em>same</em> pairs points at the fill rather than the content.</p>");
     let rows: Vec<IntervalRow> = s
         .slices
@@ -571,12 +578,12 @@ fn area_slices(s: &Summary) -> String {
         ],
         rows,
     }));
-    out.push_str(&slice_table(s, "area_fraction", "slice-area_fraction"));
+    out.push_str(&slice_table(run, s, "area_fraction", "slice-area_fraction"));
     out.push_str("</section>\n");
     out
 }
 
-fn other_slices(s: &Summary) -> String {
+fn other_slices(run: &RunFolder, s: &Summary) -> String {
     let mut out = String::from("<section id=\"slices\"><h2>Other slices</h2><p>Bins are fixed (docs/results.md). A pair that edits regions of several labels counts under each label.</p>");
     let titles = [
         (
@@ -590,7 +597,12 @@ fn other_slices(s: &Summary) -> String {
     for (dimension, title) in titles {
         debug_assert!(DIMENSIONS.contains(&dimension));
         out.push_str(&format!("<h3>{}</h3>", escape(title)));
-        out.push_str(&slice_table(s, dimension, &format!("slice-{dimension}")));
+        out.push_str(&slice_table(
+            run,
+            s,
+            dimension,
+            &format!("slice-{dimension}"),
+        ));
     }
     out.push_str("</section>\n");
     out
@@ -783,7 +795,7 @@ fn gallery(run: &mut RunFolder, s: &Summary) -> (String, BTreeMap<String, usize>
         out.push_str("<p>No failures to show.</p></section>\n");
         return (out, BTreeMap::new(), 0);
     }
-    let by_id: BTreeMap<String, crate::audit::results::PairRecord> = run
+    let by_id: BTreeMap<String, PairRecord> = run
         .records
         .iter()
         .filter(|r| picks.iter().any(|p| p.pair_id == r.pair_id))
