@@ -10,7 +10,7 @@ use clap::{Args, Parser, Subcommand};
 use crate::analysis::compare::{
     compare_runs, render_text as render_compare_text, CompareConfig, CompareOptions,
 };
-use crate::audit::summary::render_text;
+use crate::analysis::render_text;
 use crate::audit::{run_audit, RunConfig};
 use crate::model::check::{check_manifest, describe};
 use crate::model::engine::open_session;
@@ -42,6 +42,8 @@ pub enum Command {
     /// Turn a finished run into training data: each edited image with its counterfactual answer,
     /// as an ImageFolder dataset (train/ and validation/ with metadata.jsonl).
     Pairs(PairsArgs),
+    /// Write a self-contained HTML report of a finished run (tables, plots, failures gallery).
+    Report(ReportArgs),
 }
 
 #[derive(Debug, Args)]
@@ -100,6 +102,21 @@ pub struct PairsArgs {
     #[arg(long)]
     pub jobs: Option<usize>,
     /// Print pairs.json on stdout instead of the table (no progress bar).
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ReportArgs {
+    /// The run folder (run.json, results.jsonl).
+    pub run_dir: PathBuf,
+    /// Where to write the HTML file [default: RUN_DIR/report.html].
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Confidence level of every interval; the summary is recomputed from results.jsonl.
+    #[arg(long, default_value_t = 0.95)]
+    pub confidence: f64,
+    /// Print the report's path and the recomputed summary as JSON.
     #[arg(long)]
     pub json: bool,
 }
@@ -222,6 +239,7 @@ pub fn execute(cli: Cli) -> anyhow::Result<u8> {
         Command::Synth(args) => synth(args),
         Command::Compare(args) => compare(args),
         Command::Pairs(args) => pairs(args),
+        Command::Report(args) => report(args),
     }
 }
 
@@ -296,6 +314,40 @@ fn pairs(args: PairsArgs) -> anyhow::Result<u8> {
     Ok(0)
 }
 
+fn check_confidence(confidence: f64) -> anyhow::Result<()> {
+    if !(confidence > 0.0 && confidence < 1.0) {
+        bail!("--confidence must lie strictly between 0 and 1, got {confidence}");
+    }
+    Ok(())
+}
+
+fn report(args: ReportArgs) -> anyhow::Result<u8> {
+    check_confidence(args.confidence)?;
+    let config = crate::report::html::ReportConfig {
+        run_dir: args.run_dir,
+        out_path: args.out,
+        confidence: args.confidence,
+    };
+    let outcome = crate::report::html::write_report(&config).context("report failed")?;
+    if args.json {
+        let value = serde_json::json!({
+            "report": outcome.path,
+            "bytes": outcome.bytes,
+            "gallery_pairs": outcome.n_gallery_pairs,
+            "summary": outcome.summary,
+        });
+        println!("{}", serde_json::to_string_pretty(&value)?);
+    } else {
+        println!(
+            "wrote {} ({:.1} KB, {} gallery pairs with images)",
+            outcome.path.display(),
+            outcome.bytes as f64 / 1024.0,
+            outcome.n_gallery_pairs
+        );
+    }
+    Ok(0)
+}
+
 fn synth(args: SynthArgs) -> anyhow::Result<u8> {
     let config = crate::synth::SynthConfig {
         cloth_matches_bowl: args.cloth_matches_bowl,
@@ -352,12 +404,7 @@ fn demo(args: DemoArgs) -> anyhow::Result<u8> {
 }
 
 fn run(args: RunArgs) -> anyhow::Result<u8> {
-    if !(args.confidence > 0.0 && args.confidence < 1.0) {
-        bail!(
-            "--confidence must lie strictly between 0 and 1, got {}",
-            args.confidence
-        );
-    }
+    check_confidence(args.confidence)?;
     let config = RunConfig {
         spec_path: args.spec,
         manifest_path: args.model,

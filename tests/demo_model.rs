@@ -114,3 +114,63 @@ fn demo_audit_exposes_the_colour_shortcut() {
         .iter()
         .any(|f| f.contains("\"cloth\"")));
 }
+
+/// The cells of the first body row of the table with `id`, as text.
+fn first_row_cells(html: &str, id: &str) -> Vec<String> {
+    let table = &html[html
+        .find(&format!("id=\"{id}\""))
+        .unwrap_or_else(|| panic!("no table {id}"))..];
+    let body = &table[table.find("<tbody>").unwrap()..];
+    let row = &body[..body.find("</tr>").unwrap()];
+    row.split("<td")
+        .skip(1)
+        .map(|cell| {
+            let text = &cell[cell.find('>').unwrap() + 1..];
+            text[..text.find("</td>").unwrap()].to_string()
+        })
+        .collect()
+}
+
+#[test]
+fn demo_report_ranks_the_cloth_first_for_colour_questions() {
+    let dir = tempfile::tempdir().unwrap();
+    let run = dir.path().join("demo");
+    let out = common::bin()
+        .args(["demo", "--json", "--out"])
+        .arg(&run)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(run.join("summary.json")).unwrap()).unwrap();
+    let top = &summary["distractor_labels"][0];
+    assert_eq!(
+        (top["question_kind"].as_str(), top["label"].as_str()),
+        (Some("colour"), Some("cloth")),
+        "summary.json ranks the cloth first"
+    );
+
+    let out = common::bin().arg("report").arg(&run).output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    println!("{}", String::from_utf8_lossy(&out.stdout).trim());
+    let html = std::fs::read_to_string(run.join("report.html")).unwrap();
+    let cells = first_row_cells(&html, "confounder-table");
+    assert_eq!(&cells[..3], ["1", "colour", "cloth"], "{cells:?}");
+    // The plot's first row is the same label.
+    let plot = &html[html.find("<section id=\"confounders\">").unwrap()..];
+    let first_label = &plot[plot.find("class=\"label\"").unwrap()..];
+    let first_label = &first_label[first_label.find('>').unwrap() + 1..];
+    assert!(
+        first_label.starts_with("colour: cloth<"),
+        "{}",
+        &first_label[..40]
+    );
+}

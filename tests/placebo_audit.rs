@@ -22,6 +22,7 @@ use twinaudit::audit::run_info::read_run_info;
 use twinaudit::audit::summary::{render_text, Summary};
 use twinaudit::audit::{run_audit, AuditError, RunConfig, RunOutcome};
 use twinaudit::spec::Expectation;
+use twinaudit::stats::paired::{newcombe_paired_difference, PairedCounts};
 
 #[derive(Deserialize)]
 struct Expected {
@@ -160,12 +161,26 @@ fn colour_placebos_hold_and_real_verdicts_are_unchanged() {
     );
 }
 
-/// The summary with every placebo field cleared.
+/// The summary with every placebo field cleared, and the confident failures' results.jsonl line
+/// numbers (placebo rows sit between the real ones) and saved-edit paths (the placebo run saves
+/// edits) cleared.
 fn without_placebo_fields(s: &Summary) -> Summary {
     let mut s = s.clone();
     s.placebo = None;
+    s.placebo_corrected = None;
     for g in &mut s.groups {
         g.placebo_flip_rate = None;
+    }
+    for l in &mut s.distractor_labels {
+        l.placebo_flip_rate = None;
+    }
+    for r in &mut s.slices {
+        r.placebo_flip_rate = None;
+    }
+    let cf = &mut s.confident_failures;
+    for e in cf.flipped.iter_mut().chain(cf.did_not_move.iter_mut()) {
+        e.results_line = 0;
+        e.edited_image = None;
     }
     s
 }
@@ -189,7 +204,16 @@ fn placebos_leave_the_real_summary_unchanged_and_add_their_flip_rates() {
         .groups
         .iter()
         .all(|g| g.placebo_flip_rate.is_none()));
-    assert_eq!(without_placebo_fields(&with.summary), plain.summary);
+    assert_eq!(plain.summary.placebo_corrected, None);
+    assert!(plain
+        .summary
+        .slices
+        .iter()
+        .all(|r| r.placebo_flip_rate.is_none()));
+    assert_eq!(
+        without_placebo_fields(&with.summary),
+        without_placebo_fields(&plain.summary)
+    );
 
     let totals = with.summary.placebo.as_ref().unwrap();
     assert_eq!(
@@ -239,10 +263,49 @@ fn placebos_leave_the_real_summary_unchanged_and_add_their_flip_rates() {
         0
     );
 
+    // Placebo-corrected rates pair each real edit with its own placebo (both judged). The
+    // interval itself is checked against Newcombe (1998) method 10's worked example in
+    // stats::paired; here the counts and the wiring.
+    let corrected = with.summary.placebo_corrected.as_ref().unwrap();
+    let mut want = PairedCounts {
+        a: 0,
+        b: 0,
+        c: 0,
+        d: 0,
+    };
+    for p in rows
+        .iter()
+        .filter(|p| p.placebo_of.is_some() && p.status == Status::Ok)
+    {
+        let real = rows
+            .iter()
+            .find(|r| Some(&r.pair_id) == p.placebo_of.as_ref())
+            .unwrap();
+        if real.status == Status::Ok {
+            want.add(real.passed == Some(false), p.passed == Some(false));
+        }
+    }
+    assert_eq!(corrected.overall.counts, want);
+    assert_eq!(want.a + want.c, 0, "every placebo holds");
+    assert!(want.b > 0, "the confounded model fails some real edits");
+    let d = corrected.overall.difference.unwrap();
+    assert_eq!(Some(d), newcombe_paired_difference(want, 0.95));
+    assert!((d.value - want.b as f64 / want.n() as f64).abs() < 1e-12);
+    assert_eq!(
+        corrected
+            .groups
+            .iter()
+            .map(|g| g.corrected.n_pairs)
+            .sum::<u64>(),
+        want.n()
+    );
+
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(with_dir.join("summary.json")).unwrap())
             .unwrap();
+    assert_eq!(json["format_version"], 2);
     assert_eq!(json["placebo"]["n_pairs"], 26);
+    assert!(json["placebo_corrected"]["overall"]["difference"]["low"].is_f64());
     assert!(json["groups"][0]["placebo_flip_rate"]["n"].is_u64());
 
     let text = render_text(&with.summary);

@@ -1,5 +1,5 @@
 //! Running an audit: planning pairs, rendering edits, asking the model, judging, and writing
-//! run.json, results.jsonl and summary.json.
+//! run.json, results.jsonl and (through [`crate::analysis`], the runner's last step) summary.json.
 //!
 //! Invariants: inputs are never modified; an existing run folder is only ever appended to
 //! (with `--resume`); every pair id is written once; one bad case becomes error rows and the run
@@ -11,11 +11,13 @@ pub mod replay;
 pub mod results;
 pub mod run_info;
 pub mod runner;
-pub mod summary;
 
 use std::path::PathBuf;
 
 pub use runner::{run_audit, RunConfig, RunOutcome};
+
+/// summary.json moved to [`crate::analysis`]; this path stays for code written before the move.
+pub use crate::analysis::summary;
 
 #[derive(Debug, thiserror::Error)]
 pub enum AuditError {

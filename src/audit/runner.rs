@@ -19,8 +19,8 @@ use super::results::{
 use super::run_info::{
     now_rfc3339, read_run_info, write_json_atomic, RunInfo, SpecFile, RUN_FORMAT_VERSION,
 };
-use super::summary::{summarise, Summary};
 use super::AuditError;
+use crate::analysis::{summarise, Summary};
 use crate::imageio;
 use crate::model::{runtime, Engine, Manifest, Prediction};
 use crate::render::cover::CoverParams;
@@ -248,12 +248,8 @@ pub fn run_audit(config: &RunConfig) -> Result<RunOutcome, AuditError> {
         return Err(e.into());
     }
 
-    let order: HashMap<&str, usize> = plan
-        .iter()
-        .enumerate()
-        .map(|(i, p)| (p.pair_id.as_str(), i))
-        .collect();
-    records.sort_by_key(|r| order.get(r.pair_id.as_str()).copied().unwrap_or(usize::MAX));
+    // Last step: the analysis stage. `records` is in results.jsonl order (read back, then
+    // appended as written), which is where the summary takes line numbers from.
     let summary = summarise(&records, config.confidence);
     let summary_path = out.join(SUMMARY_FILE);
     write_json_atomic(&summary_path, &summary).map_err(write_err(&summary_path))?;

@@ -62,3 +62,56 @@ pub fn image_of(w: u32, h: u32, pixels: &[u8], periodic: bool) -> image::RgbImag
         }
     })
 }
+
+/// A label and question carrying markup, quotes and ampersands, for the report's escaping tests.
+pub const HOSTILE_LABEL: &str = r#"<script>alert(1)</script> "orange" & 'tile'"#;
+pub const HOSTILE_QUESTION: &str =
+    r#"How many red tiles are there? <script>alert(1)</script> & "quotes""#;
+
+/// The known-answer counting spec (tests/data/known/specs/counting.json) written into `dir` with
+/// absolute image paths, every "orange tile" label replaced by [`HOSTILE_LABEL`] and every
+/// question by [`HOSTILE_QUESTION`]. With `count_red_confounded` the orange-tile edits flip
+/// (tests/data/known/EXPECTED.md), so the label reaches the confounder ranking and the failures.
+pub fn hostile_counting_spec(dir: &Path) -> PathBuf {
+    let text = std::fs::read_to_string(known("specs/counting.json")).unwrap();
+    let mut spec: serde_json::Value = serde_json::from_str(&text).unwrap();
+    for case in spec["cases"].as_array_mut().unwrap() {
+        let image = known("specs").join(case["image"].as_str().unwrap());
+        case["image"] = image.to_str().unwrap().into();
+        case["question"] = HOSTILE_QUESTION.into();
+        for region in case["regions"].as_array_mut().unwrap() {
+            if region["label"] == "orange tile" {
+                region["label"] = HOSTILE_LABEL.into();
+            }
+        }
+    }
+    let path = dir.join("hostile.json");
+    std::fs::write(&path, serde_json::to_string_pretty(&spec).unwrap()).unwrap();
+    path
+}
+
+/// Runs the hostile spec with `count_red_confounded` through the binary and writes its report;
+/// returns the run folder.
+pub fn hostile_run_with_report(dir: &Path) -> PathBuf {
+    let spec = hostile_counting_spec(dir);
+    let run = dir.join("run");
+    let out = bin()
+        .args(["run", "--spec", spec.to_str().unwrap(), "--model"])
+        .arg(known("count_red_confounded.manifest.json"))
+        .arg("--out")
+        .arg(&run)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let out = bin().arg("report").arg(&run).output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    run
+}
