@@ -104,6 +104,10 @@ pub struct Comparison {
     /// Unedited answers equal to the truth, paired by case, per question kind (Holm-adjusted
     /// across the kinds).
     pub clean_accuracy: Vec<AccuracyComparison>,
+    /// Clean accuracy over every case with a truth, all question kinds together (one test, not
+    /// adjusted); null when no case has a truth in both runs.
+    #[serde(default)]
+    pub clean_accuracy_all: Option<PairedComparison>,
     /// Flip rates of placebo controls matched by pair id; null unless both runs have them.
     pub placebo: Option<FailureComparison>,
     /// Rows (overall, groups, clean accuracy, placebo) where B is significantly worse.
@@ -522,14 +526,21 @@ pub fn compare_folders(
     let clean_a = clean_outcomes(a);
     let clean_b = clean_outcomes(b);
     let mut by_kind: BTreeMap<QuestionKind, Tally> = BTreeMap::new();
+    let mut all_kinds = Tally::default();
     for (case, (kind, correct_a)) in &clean_a {
         if let Some((_, correct_b)) = clean_b.get(case) {
             by_kind
                 .entry(*kind)
                 .or_default()
                 .add_outcomes(*correct_a, *correct_b);
+            all_kinds.add_outcomes(*correct_a, *correct_b);
         }
     }
+    let clean_accuracy_all = (!by_kind.is_empty()).then(|| {
+        let mut row = all_kinds.paired(Outcome::Correct, confidence);
+        decide(&mut row, None, alpha);
+        row
+    });
     let mut clean_accuracy: Vec<AccuracyComparison> = by_kind
         .into_iter()
         .map(|(question_kind, tally)| AccuracyComparison {
@@ -558,6 +569,7 @@ pub fn compare_folders(
     let findings: Vec<Finding> = std::iter::once(&overall.failure)
         .chain(groups.iter().map(|g| &g.comparison.failure))
         .chain(clean_accuracy.iter().map(|r| &r.accuracy))
+        .chain(clean_accuracy_all.iter())
         .chain(placebo.iter().map(|p| &p.failure))
         .map(|r| r.finding)
         .collect();
@@ -575,6 +587,7 @@ pub fn compare_folders(
         overall,
         groups,
         clean_accuracy,
+        clean_accuracy_all,
         placebo,
         n_rows_b_worse: count(Finding::BWorse),
         n_rows_b_better: count(Finding::BBetter),
@@ -800,6 +813,10 @@ pub fn render_text(c: &Comparison) -> String {
         out.push_str(
             "\nclean accuracy (unedited answer equals the truth, one per case; B − A > 0: B more accurate)\n",
         );
+        if let Some(all) = &c.clean_accuracy_all {
+            out.push_str("  all questions\n");
+            out.push_str(&paired_lines(all, "    "));
+        }
         for r in &c.clean_accuracy {
             out.push_str(&format!("  {} questions\n", r.question_kind.as_str()));
             out.push_str(&paired_lines(&r.accuracy, "    "));
