@@ -5,7 +5,7 @@ use std::io::IsTerminal;
 use std::path::PathBuf;
 
 use anyhow::{bail, Context};
-use clap::{Args, Parser, Subcommand};
+use clap::{Args, Parser, Subcommand, ValueEnum};
 
 use crate::analysis::compare::{
     compare_runs, render_text as render_compare_text, CompareConfig, CompareOptions,
@@ -15,6 +15,9 @@ use crate::audit::{run_audit, RunConfig};
 use crate::model::check::{check_manifest, describe};
 use crate::model::engine::open_session;
 use crate::model::Manifest;
+use crate::report::sheet::{
+    write_sheet, Outcome, PairSet, RowFilter, SheetConfig, SortKey, MAX_ROWS_PER_PAGE,
+};
 
 #[derive(Debug, Parser)]
 #[command(
@@ -44,6 +47,9 @@ pub enum Command {
     Pairs(PairsArgs),
     /// Write a self-contained HTML report of a finished run (tables, plots, failures gallery).
     Report(ReportArgs),
+    /// Draw a run's pairs on PNG pages: original, edited with the edited shape outlined,
+    /// difference heat map, and question, answers, expectation and verdict in words.
+    Sheet(SheetArgs),
 }
 
 #[derive(Debug, Args)]
@@ -117,6 +123,113 @@ pub struct ReportArgs {
     #[arg(long, default_value_t = 0.95)]
     pub confidence: f64,
     /// Print the report's path and the recomputed summary as JSON.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum VerdictArg {
+    Held,
+    Flipped,
+    #[value(alias = "moved_to_expected")]
+    MovedToExpected,
+    #[value(alias = "moved_elsewhere")]
+    MovedElsewhere,
+    #[value(alias = "did_not_move")]
+    DidNotMove,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum OutcomeArg {
+    Passed,
+    Failed,
+    /// Pairs that could not be judged.
+    Error,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum RoleArg {
+    Target,
+    Distractor,
+    Mixed,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum KindArg {
+    Count,
+    #[value(alias = "color")]
+    Colour,
+    Exists,
+    Other,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum PairsArg {
+    All,
+    Real,
+    Placebo,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum SortArg {
+    /// results.jsonl order.
+    Line,
+    /// Pair id, ascending.
+    PairId,
+    /// After-edit answer probability, highest first.
+    Confidence,
+    /// Edited area, largest first.
+    Area,
+}
+
+#[derive(Debug, Args)]
+pub struct SheetArgs {
+    /// The run folder (run.json, results.jsonl).
+    pub run: PathBuf,
+    /// Output folder [default: RUN/sheet]; an earlier sheet there is replaced, other files stop the command.
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Keep pairs with these verdicts (comma-separated).
+    #[arg(long, value_enum, value_delimiter = ',')]
+    pub verdict: Vec<VerdictArg>,
+    /// Keep passed, failed or not-judged pairs.
+    #[arg(long, value_enum)]
+    pub outcome: Option<OutcomeArg>,
+    /// Keep pairs edited with these operations (comma-separated, e.g. erase,recolour).
+    #[arg(long, value_delimiter = ',')]
+    pub operation: Vec<String>,
+    /// Keep pairs whose edited regions have this role (comma-separated).
+    #[arg(long, value_enum, value_delimiter = ',')]
+    pub role: Vec<RoleArg>,
+    /// Keep pairs with these question kinds (comma-separated).
+    #[arg(long, value_enum, value_delimiter = ',')]
+    pub kind: Vec<KindArg>,
+    /// Keep pairs with an edited region of this label (repeat for several; labels may hold commas).
+    #[arg(long)]
+    pub label: Vec<String>,
+    /// Real pairs, placebo controls or both.
+    #[arg(long, value_enum, default_value = "all")]
+    pub pairs: PairsArg,
+    /// Keep only the real distractor edits of the label whose edits flip answers most often
+    /// (the first line of the summary's distractor ranking); combine with --verdict flipped.
+    #[arg(long)]
+    pub top_confounder: bool,
+    /// Row order.
+    #[arg(long, value_enum, default_value = "line")]
+    pub sort: SortArg,
+    /// Reverse the order.
+    #[arg(long)]
+    pub reverse: bool,
+    /// Rows on each page (1..=100).
+    #[arg(long, default_value_t = 10)]
+    pub rows_per_page: usize,
+    /// Draw at most this many rows (after sorting).
+    #[arg(long)]
+    pub limit: Option<usize>,
+    /// Worker threads, each drawing whole pages [default: number of cores].
+    #[arg(long)]
+    pub jobs: Option<usize>,
+    /// Print index.json (pages and the pair on each row) on stdout; no progress bar.
     #[arg(long)]
     pub json: bool,
 }
@@ -240,6 +353,7 @@ pub fn execute(cli: Cli) -> anyhow::Result<u8> {
         Command::Compare(args) => compare(args),
         Command::Pairs(args) => pairs(args),
         Command::Report(args) => report(args),
+        Command::Sheet(args) => sheet(args),
     }
 }
 
@@ -308,6 +422,157 @@ fn pairs(args: PairsArgs) -> anyhow::Result<u8> {
             "twinaudit: {} images could not be made and are not in the dataset; see \"failures\" in {}",
             s.failures.len(),
             config.out_dir.join(crate::pairs::PAIRS_SUMMARY_FILE).display()
+        );
+        return Ok(2);
+    }
+    Ok(0)
+}
+
+fn sheet_config(args: &SheetArgs) -> anyhow::Result<SheetConfig> {
+    if args.rows_per_page == 0 || args.rows_per_page > MAX_ROWS_PER_PAGE {
+        bail!(
+            "--rows-per-page must lie in 1..={MAX_ROWS_PER_PAGE}, got {}",
+            args.rows_per_page
+        );
+    }
+    if args.limit == Some(0) {
+        bail!("--limit must be at least 1, got 0");
+    }
+    if args.jobs == Some(0) {
+        bail!("--jobs must be at least 1, got 0");
+    }
+    if let Some(empty) = args
+        .operation
+        .iter()
+        .chain(&args.label)
+        .find(|s| s.is_empty())
+    {
+        bail!("--operation and --label need a value, got {empty:?}");
+    }
+    use crate::audit::checker::Verdict;
+    use crate::spec::QuestionKind;
+    let filter = RowFilter {
+        verdicts: args
+            .verdict
+            .iter()
+            .map(|v| match v {
+                VerdictArg::Held => Verdict::Held,
+                VerdictArg::Flipped => Verdict::Flipped,
+                VerdictArg::MovedToExpected => Verdict::MovedToExpected,
+                VerdictArg::MovedElsewhere => Verdict::MovedElsewhere,
+                VerdictArg::DidNotMove => Verdict::DidNotMove,
+            })
+            .collect(),
+        outcome: args.outcome.map(|o| match o {
+            OutcomeArg::Passed => Outcome::Passed,
+            OutcomeArg::Failed => Outcome::Failed,
+            OutcomeArg::Error => Outcome::Error,
+        }),
+        operations: args.operation.clone(),
+        roles: args
+            .role
+            .iter()
+            .map(|r| {
+                match r {
+                    RoleArg::Target => "target",
+                    RoleArg::Distractor => "distractor",
+                    RoleArg::Mixed => "mixed",
+                }
+                .to_string()
+            })
+            .collect(),
+        kinds: args
+            .kind
+            .iter()
+            .map(|k| match k {
+                KindArg::Count => QuestionKind::Count,
+                KindArg::Colour => QuestionKind::Colour,
+                KindArg::Exists => QuestionKind::Exists,
+                KindArg::Other => QuestionKind::Other,
+            })
+            .collect(),
+        labels: args.label.clone(),
+        pairs: match args.pairs {
+            PairsArg::All => PairSet::All,
+            PairsArg::Real => PairSet::Real,
+            PairsArg::Placebo => PairSet::Placebo,
+        },
+        top_confounder: args.top_confounder,
+    };
+    Ok(SheetConfig {
+        out_dir: args
+            .out
+            .clone()
+            .unwrap_or_else(|| args.run.join(crate::report::sheet::SHEET_DIR)),
+        filter,
+        sort: match args.sort {
+            SortArg::Line => SortKey::Line,
+            SortArg::PairId => SortKey::PairId,
+            SortArg::Confidence => SortKey::Confidence,
+            SortArg::Area => SortKey::Area,
+        },
+        reverse: args.reverse,
+        rows_per_page: args.rows_per_page,
+        limit: args.limit,
+        jobs: args.jobs.unwrap_or_else(|| {
+            std::thread::available_parallelism()
+                .map(|n| n.get())
+                .unwrap_or(1)
+        }),
+        show_progress: !args.json && std::io::stderr().is_terminal(),
+        ..SheetConfig::new(&args.run)
+    })
+}
+
+fn sheet(args: SheetArgs) -> anyhow::Result<u8> {
+    let config = sheet_config(&args)?;
+    let start = std::time::Instant::now();
+    let index = write_sheet(&config).context("sheet failed")?;
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(&index)?);
+    } else {
+        if let Some(c) = &index.selection.top_confounder {
+            println!(
+                "top confounder: {:?} distractor on {} questions, flip rate {}",
+                c.label,
+                c.question_kind.as_str(),
+                c.flip_rate.describe()
+            );
+        }
+        if index.n_rows == 0 {
+            println!(
+                "no pair of {} matches ({}); wrote an empty {}",
+                config.run_dir.display(),
+                index.selection.filter.describe(),
+                config
+                    .out_dir
+                    .join(crate::report::sheet::INDEX_FILE)
+                    .display()
+            );
+        } else {
+            println!(
+                "wrote {} page(s), {} row(s) ({} matched, {} a page) to {} in {:.1} s\nindex: {}",
+                index.pages.len(),
+                index.n_rows,
+                index.selection.n_matching,
+                index.selection.rows_per_page,
+                config.out_dir.display(),
+                start.elapsed().as_secs_f64(),
+                config
+                    .out_dir
+                    .join(crate::report::sheet::INDEX_FILE)
+                    .display()
+            );
+        }
+    }
+    if index.n_rows_without_pictures > 0 {
+        eprintln!(
+            "twinaudit: {} row(s) have no pictures; see \"problem\" in {}",
+            index.n_rows_without_pictures,
+            config
+                .out_dir
+                .join(crate::report::sheet::INDEX_FILE)
+                .display()
         );
         return Ok(2);
     }

@@ -46,6 +46,9 @@ pub struct RunFolder {
     pub records: Vec<PairRecord>,
     /// Spec files named in run.json, loaded on first need (by [`RunFolder::case_of`]).
     specs: Option<Vec<Spec>>,
+    /// The last case's decoded image and rasterised regions, keyed by (spec, case): pairs of one
+    /// case usually follow each other, and decoding dominates [`RunFolder::pair_images`].
+    last_scene: Option<(String, String, CaseScene)>,
 }
 
 /// The two images of a pair and where the edit acted.
@@ -79,6 +82,7 @@ impl RunFolder {
             info,
             records,
             specs: None,
+            last_scene: None,
         })
     }
 
@@ -107,35 +111,8 @@ impl RunFolder {
 
     /// The case a record came from, and the index of its edit.
     pub fn case_of(&mut self, record: &PairRecord) -> Result<(&Case, usize), ReplayError> {
-        let dir = self.dir.clone();
-        let specs = self.load_specs()?;
-        let case = specs
-            .iter()
-            .filter(|s| s.path.display().to_string() == record.spec)
-            .flat_map(|s| &s.cases)
-            .find(|c| c.id == record.case);
-        let pair_err = |message: String| ReplayError::Pair {
-            dir: dir.clone(),
-            pair_id: record.pair_id.clone(),
-            message,
-        };
-        let case = case.ok_or_else(|| {
-            pair_err(format!(
-                "case {:?} is not in spec {}",
-                record.case, record.spec
-            ))
-        })?;
-        let edit_idx = case
-            .edits
-            .iter()
-            .position(|e| e.id == record.edit)
-            .ok_or_else(|| {
-                pair_err(format!(
-                    "edit {:?} is not in case {:?}",
-                    record.edit, record.case
-                ))
-            })?;
-        Ok((case, edit_idx))
+        self.load_specs()?;
+        find_case(&self.dir, self.specs.as_deref().expect("loaded"), record)
     }
 
     /// The original and edited images of a pair. The edit is read from the run's saved file when
@@ -148,12 +125,21 @@ impl RunFolder {
             pair_id: record.pair_id.clone(),
             message,
         };
-        let (case, edit_idx) = self.case_of(record)?;
-        let image = imageio::load_rgb(&case.image_path).map_err(|e| pair_err(e.to_string()))?;
-        let scene = CaseScene::new(case, image);
+        self.load_specs()?;
+        let specs = self.specs.as_deref().expect("loaded");
+        let (case, edit_idx) = find_case(&dir, specs, record)?;
+        let cached = matches!(&self.last_scene,
+            Some((spec, case, _)) if *spec == record.spec && *case == record.case);
+        if !cached {
+            self.last_scene = None;
+            let image = imageio::load_rgb(&case.image_path).map_err(|e| pair_err(e.to_string()))?;
+            let scene = CaseScene::new(case, image);
+            self.last_scene = Some((record.spec.clone(), record.case.clone(), scene));
+        }
+        let scene = &self.last_scene.as_ref().expect("just filled").2;
         let mut warnings = Vec::new();
         let placebo = record.placebo_of.is_some();
-        let shape = edit_shape(case, edit_idx, &scene, record.seed, placebo, &mut warnings)
+        let shape = edit_shape(case, edit_idx, scene, record.seed, placebo, &mut warnings)
             .map_err(pair_err)?;
         let saved = record
             .edited_image
@@ -168,13 +154,13 @@ impl RunFolder {
             ),
             None => {
                 let rendered =
-                    render_edit(case, edit_idx, &scene, record.seed, placebo, &mut warnings)
+                    render_edit(case, edit_idx, scene, record.seed, placebo, &mut warnings)
                         .map_err(pair_err)?;
                 (rendered.image, rendered.added, false)
             }
         };
         Ok(PairImages {
-            original: scene.image,
+            original: scene.image.clone(),
             edited,
             shape,
             added,
@@ -194,6 +180,41 @@ impl RunFolder {
             .map(|r| (r.pair_id.as_str(), r))
             .collect()
     }
+}
+
+/// The case of `record` among `specs`, and the index of its edit.
+fn find_case<'a>(
+    dir: &Path,
+    specs: &'a [Spec],
+    record: &PairRecord,
+) -> Result<(&'a Case, usize), ReplayError> {
+    let pair_err = |message: String| ReplayError::Pair {
+        dir: dir.to_path_buf(),
+        pair_id: record.pair_id.clone(),
+        message,
+    };
+    let case = specs
+        .iter()
+        .filter(|s| s.path.display().to_string() == record.spec)
+        .flat_map(|s| &s.cases)
+        .find(|c| c.id == record.case)
+        .ok_or_else(|| {
+            pair_err(format!(
+                "case {:?} is not in spec {}",
+                record.case, record.spec
+            ))
+        })?;
+    let edit_idx = case
+        .edits
+        .iter()
+        .position(|e| e.id == record.edit)
+        .ok_or_else(|| {
+            pair_err(format!(
+                "edit {:?} is not in case {:?}",
+                record.edit, record.case
+            ))
+        })?;
+    Ok((case, edit_idx))
 }
 
 /// The pair id of a placebo control for `pair_id`.

@@ -63,6 +63,24 @@ pub struct RunOutcome {
     pub n_new_pairs: usize,
 }
 
+/// The progress bar of long commands, on stderr; hidden unless `show` (callers pass false with
+/// `--json` or when stderr is not a terminal). `unit` names what is counted.
+pub fn progress_bar(show: bool, len: u64, unit: &str) -> indicatif::ProgressBar {
+    let bar = if show {
+        indicatif::ProgressBar::new(len)
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+    bar.set_style(
+        indicatif::ProgressStyle::with_template(&format!(
+            "{{elapsed_precise}} [{{bar:30}}] {{pos}}/{{len}} {unit} ({{per_sec}}, eta {{eta}})"
+        ))
+        .expect("valid template")
+        .progress_chars("=> "),
+    );
+    bar
+}
+
 /// Per-pair seed: the first 8 bytes of sha256("<run seed>:<pair id>").
 pub fn pair_seed(run_seed: u64, pair_id: &str) -> u64 {
     let digest = Sha256::digest(format!("{run_seed}:{pair_id}").as_bytes());
@@ -170,18 +188,7 @@ pub fn run_audit(config: &RunConfig) -> Result<RunOutcome, AuditError> {
     }
     let n_pending: usize = work.iter().map(|w| w.pairs.len()).sum();
 
-    let progress = if config.show_progress {
-        indicatif::ProgressBar::new(n_pending as u64)
-    } else {
-        indicatif::ProgressBar::hidden()
-    };
-    progress.set_style(
-        indicatif::ProgressStyle::with_template(
-            "{elapsed_precise} [{bar:30}] {pos}/{len} pairs ({per_sec}, eta {eta})",
-        )
-        .expect("static template")
-        .progress_chars("=> "),
-    );
+    let progress = progress_bar(config.show_progress, n_pending as u64, "pairs");
 
     let ctx = Context {
         specs: &specs,

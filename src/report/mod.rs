@@ -1,6 +1,8 @@
-//! Human-readable views of a finished run folder: the self-contained HTML report
-//! (`twinaudit report`, [`html`]) with its inline SVG plots ([`svg`]). Reports only read the run
-//! (run.json, results.jsonl, saved or re-rendered edits) and write one file.
+//! report: turning a run into things people look at: the self-contained HTML report
+//! (`twinaudit report`, [`html`]) with its inline SVG plots ([`svg`]), and contact-sheet PNG pages
+//! (`twinaudit sheet`, [`sheet`]). Every report reads a finished run folder through
+//! `audit::replay::RunFolder` and never writes into the run's own files.
 
 pub mod html;
+pub mod sheet;
 pub mod svg;
