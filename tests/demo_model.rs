@@ -33,15 +33,8 @@ fn committed_model_reaches_80_percent_clean_accuracy_on_fresh_scenes() {
         ..SynthConfig::new(&synth_dir, 150, FRESH_SEED)
     };
     synthesize(&config).unwrap();
-    // Accuracy needs only the unedited answers: keep one cheap edit per case.
     let spec_path = synth_dir.join("spec.json");
-    let mut spec: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(&spec_path).unwrap()).unwrap();
-    for case in spec["cases"].as_array_mut().unwrap() {
-        let first = case["edits"][0].clone();
-        case["edits"] = serde_json::json!([first]);
-    }
-    std::fs::write(&spec_path, spec.to_string()).unwrap();
+    common::keep_first_edit_per_case(&spec_path);
     let outcome = run_audit(&common::config(
         &spec_path,
         &manifest(),

@@ -13,7 +13,7 @@ use image::RgbImage;
 use super::plan::PLACEBO_SUFFIX;
 use super::results::{read_results_readonly, PairRecord};
 use super::run_info::{read_run_info, RunInfo};
-use super::runner::{edit_shape, render_edit, CaseScene, RESULTS_FILE, RUN_FILE};
+use super::runner::{edit_shape, render_edit, CaseScene, PairEdit, RESULTS_FILE, RUN_FILE};
 use crate::imageio;
 use crate::render::mask::Mask;
 use crate::spec::{load_spec, Case, Spec};
@@ -138,9 +138,12 @@ impl RunFolder {
         }
         let scene = &self.last_scene.as_ref().expect("just filled").2;
         let mut warnings = Vec::new();
-        let placebo = record.placebo_of.is_some();
-        let shape = edit_shape(case, edit_idx, scene, record.seed, placebo, &mut warnings)
-            .map_err(pair_err)?;
+        let pair = PairEdit {
+            edit_idx,
+            seed: record.seed,
+            placebo: record.placebo_of.is_some(),
+        };
+        let shape = edit_shape(case, scene, pair, &mut warnings).map_err(pair_err)?;
         let saved = record
             .edited_image
             .as_ref()
@@ -153,9 +156,7 @@ impl RunFolder {
                 true,
             ),
             None => {
-                let rendered =
-                    render_edit(case, edit_idx, scene, record.seed, placebo, &mut warnings)
-                        .map_err(pair_err)?;
+                let rendered = render_edit(case, scene, pair, &shape).map_err(pair_err)?;
                 (rendered.image, rendered.added, false)
             }
         };

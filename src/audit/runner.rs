@@ -405,14 +405,13 @@ impl Context<'_> {
         rec: &mut PairRecord,
     ) -> Result<(), String> {
         let edit = &case.edits[p.edit_idx];
-        let rendered = render_edit(
-            case,
-            p.edit_idx,
-            scene,
-            rec.seed,
-            p.placebo_of.is_some(),
-            &mut rec.warnings,
-        )?;
+        let pair = PairEdit {
+            edit_idx: p.edit_idx,
+            seed: rec.seed,
+            placebo: p.placebo_of.is_some(),
+        };
+        let shape = edit_shape(case, scene, pair, &mut rec.warnings)?;
+        let rendered = render_edit(case, scene, pair, &shape)?;
         rec.method = Some(rendered.method.clone());
         rec.area_fraction = Some(rendered.changed.area_fraction());
         rec.added_regions = rendered.added.iter().map(Mask::bounding_box).collect();
@@ -480,18 +479,25 @@ impl CaseScene {
     }
 }
 
+/// Which edit of a case a pair renders: the edit, the pair's seed, and whether it is the placebo
+/// copy of that edit.
+#[derive(Debug, Clone, Copy)]
+pub struct PairEdit {
+    pub edit_idx: usize,
+    pub seed: u64,
+    pub placebo: bool,
+}
+
 /// The pixels one edit of a case acts on: the union of its regions or, for a placebo, that shape
-/// moved onto free background (chosen with `seed`). Region warnings (e.g. clipped at the border)
-/// are appended to `warnings`.
+/// moved onto free background (chosen with the pair's seed). Region warnings (e.g. clipped at the
+/// border) are appended to `warnings`.
 pub fn edit_shape(
     case: &Case,
-    edit_idx: usize,
     scene: &CaseScene,
-    seed: u64,
-    placebo: bool,
+    pair: PairEdit,
     warnings: &mut Vec<String>,
 ) -> Result<Mask, String> {
-    let edit = &case.edits[edit_idx];
+    let edit = &case.edits[pair.edit_idx];
     let mut mask: Option<Mask> = None;
     for &i in &edit.region_indices {
         let r = scene.regions[i].as_ref().map_err(|e| e.to_string())?;
@@ -506,11 +512,11 @@ pub fn edit_shape(
         });
     }
     let mask = mask.expect("validated edits select at least one region");
-    if !placebo {
+    if !pair.placebo {
         return Ok(mask);
     }
     let margin_px = placebo_margin_px(&edit.operation, &edit.params);
-    place_placebo(&mask, &scene.all_masks, seed, margin_px).ok_or_else(|| {
+    place_placebo(&mask, &scene.all_masks, pair.seed, margin_px).ok_or_else(|| {
         format!(
             "no free background for the placebo: the edit's shape, kept {margin_px} px \
              from every region, fits nowhere in the image"
@@ -518,25 +524,23 @@ pub fn edit_shape(
     })
 }
 
-/// Renders one edit of a case on [`edit_shape`]. Pure: the same case, seed and flag give the same
-/// pixels, which is what lets review and training-pair export re-create edits a run did not save.
+/// Renders one edit of a case on its [`edit_shape`]. Pure: the same case, shape and seed give
+/// the same pixels, which is what lets review and training-pair export re-create edits a run did
+/// not save.
 pub fn render_edit(
     case: &Case,
-    edit_idx: usize,
     scene: &CaseScene,
-    seed: u64,
-    placebo: bool,
-    warnings: &mut Vec<String>,
+    pair: PairEdit,
+    shape: &Mask,
 ) -> Result<Rendered, String> {
-    let edit = &case.edits[edit_idx];
+    let edit = &case.edits[pair.edit_idx];
     let operation = find_operation(&edit.operation)
         .ok_or_else(|| format!("unknown operation {:?}", edit.operation))?;
-    let mask = edit_shape(case, edit_idx, scene, seed, placebo, warnings)?;
     let input = EditInput {
         image: &scene.image,
-        mask: &mask,
+        mask: shape,
         all_regions: &scene.all_masks,
-        seed,
+        seed: pair.seed,
     };
     operation.apply(&input, &edit.params)
 }

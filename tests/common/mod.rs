@@ -115,3 +115,15 @@ pub fn hostile_run_with_report(dir: &Path) -> PathBuf {
     );
     run
 }
+
+/// Rewrites a spec file so that each case keeps only its first edit: clean accuracy needs only
+/// the unedited answers, and one edit per case keeps such runs cheap.
+pub fn keep_first_edit_per_case(spec_path: &Path) {
+    let mut spec: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(spec_path).unwrap()).unwrap();
+    for case in spec["cases"].as_array_mut().unwrap() {
+        let first = case["edits"][0].clone();
+        case["edits"] = serde_json::json!([first]);
+    }
+    std::fs::write(spec_path, spec.to_string()).unwrap();
+}
