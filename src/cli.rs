@@ -664,6 +664,10 @@ fn demo(args: DemoArgs) -> anyhow::Result<u8> {
             start.elapsed().as_secs_f64(),
             out.join("edits").display()
         );
+        println!(
+            "review it: twinaudit report {dir} (HTML), twinaudit sheet {dir} --top-confounder (PNG pages)",
+            dir = out.display()
+        );
     }
     Ok(code)
 }
