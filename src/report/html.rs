@@ -11,8 +11,9 @@ use std::collections::BTreeMap;
 use std::io::Cursor;
 use std::path::{Path, PathBuf};
 
-use image::{imageops, Rgb, RgbImage};
+use image::RgbImage;
 
+use super::sheet::{dashed_rect, Thumb, SHAPE_OUTLINE};
 use super::svg::{interval_chart, IntervalChart, IntervalRow, Marker};
 use crate::analysis::confounders::sole_distractor_label;
 use crate::analysis::failures::FailureEntry;
@@ -739,45 +740,30 @@ fn failure_row(rank: usize, e: &FailureEntry, figure: Option<usize>) -> String {
     )
 }
 
-/// A thumbnail no larger than [`THUMBNAIL_PX`] (smaller images keep their size; the page scales
-/// them up) with the edited shape's bounding box drawn as a dashed frame (a shape, so it reads
-/// without colour). Returns the PNG as base64 and the display size.
+/// A thumbnail at most [`THUMBNAIL_PX`] on its longer side (the contact sheet's box-filtered
+/// [`Thumb`]), with the edited shape's bounding box framed by the sheet's dashed outline; PNG
+/// as base64 with its width and height in pixels.
 fn thumbnail(image: &RgbImage, bbox: [u32; 4]) -> Option<(String, u32, u32)> {
     let (w, h) = image.dimensions();
-    let display = f64::from(THUMBNAIL_PX) / f64::from(w.max(h).max(1));
-    let scale = display.min(1.0);
-    let (tw, th) = (
-        ((f64::from(w) * scale).round() as u32).max(1),
-        ((f64::from(h) * scale).round() as u32).max(1),
-    );
-    let mut small = imageops::resize(image, tw, th, imageops::FilterType::Triangle);
-    let [bx, by, bw, bh] = bbox.map(|v| (f64::from(v) * scale).round() as u32);
+    let thumb = Thumb::fit(w, h, THUMBNAIL_PX);
+    let mut small = thumb.shrink_rgb(image);
+    let to_thumb =
+        |v: u32, src: u32, n: u32| (u64::from(v) * u64::from(n) / u64::from(src.max(1))) as i32;
+    let [bx, by, bw, bh] = bbox;
     let (x0, y0) = (
-        bx.saturating_sub(1).min(tw - 1),
-        by.saturating_sub(1).min(th - 1),
+        to_thumb(bx, w, thumb.width) - 1,
+        to_thumb(by, h, thumb.height) - 1,
     );
-    let (x1, y1) = ((bx + bw).min(tw - 1), (by + bh).min(th - 1));
-    let dash = |i: u32| {
-        if (i / 3) % 2 == 0 {
-            Rgb([255, 0, 255])
-        } else {
-            Rgb([0, 0, 0])
-        }
-    };
-    for x in x0..=x1 {
-        small.put_pixel(x, y0, dash(x));
-        small.put_pixel(x, y1, dash(x));
-    }
-    for y in y0..=y1 {
-        small.put_pixel(x0, y, dash(y));
-        small.put_pixel(x1, y, dash(y));
-    }
+    let (x1, y1) = (
+        to_thumb(bx + bw, w, thumb.width),
+        to_thumb(by + bh, h, thumb.height),
+    );
+    dashed_rect(&mut small, x0, y0, x1 - x0 + 1, y1 - y0 + 1, SHAPE_OUTLINE);
     let mut png = Vec::new();
     small
         .write_to(&mut Cursor::new(&mut png), image::ImageFormat::Png)
         .ok()?;
-    let shown = |v: u32| ((f64::from(v) * display).round() as u32).max(1);
-    Some((base64(&png), shown(w), shown(h)))
+    Some((base64(&png), thumb.width, thumb.height))
 }
 
 /// The gallery's HTML, the figure number of each shown pair id, and how many pairs have images.

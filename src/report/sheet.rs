@@ -30,7 +30,7 @@ use crate::stats::Rate;
 mod pictures;
 mod text;
 
-use pictures::dashed_rect;
+pub(crate) use pictures::dashed_rect;
 pub use pictures::{
     difference_map, heat_colour, outline_band, row_pictures, RowPictures, Thumb, ADDED_OUTLINE,
     SHAPE_OUTLINE,

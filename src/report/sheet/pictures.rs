@@ -126,7 +126,7 @@ impl Thumb {
     }
 
     /// Box-filtered (mean) thumbnail of an RGB image of the source size.
-    pub(super) fn shrink_rgb(&self, image: &RgbImage) -> RgbImage {
+    pub(crate) fn shrink_rgb(&self, image: &RgbImage) -> RgbImage {
         let (raw, w) = (image.as_raw(), self.src_width as usize);
         let mut out = Vec::with_capacity((self.width * self.height * 3) as usize);
         self.for_each_span(|(x0, x1), (y0, y1)| {
@@ -285,7 +285,7 @@ fn halo_of(inside: &[bool], width: u32, height: u32) -> Vec<bool> {
     out
 }
 
-pub(super) fn dashed_rect(image: &mut RgbImage, x: i32, y: i32, w: i32, h: i32, colour: Rgb<u8>) {
+pub(crate) fn dashed_rect(image: &mut RgbImage, x: i32, y: i32, w: i32, h: i32, colour: Rgb<u8>) {
     let (iw, ih) = (image.width() as i32, image.height() as i32);
     let mut put = |px: i32, py: i32, k: i32| {
         if k % 9 < 6 {
